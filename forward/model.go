@@ -1,0 +1,328 @@
+package forward
+
+import (
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// MaxCondition is the largest condition number of a steady-state system
+// that nlens accepts. A solve loses about log10(cond) digits; at 1e11 the
+// worst-case relative error cond·ε_machine ≈ 1e-5 would be 0.01 ‰ on δ,
+// half the 0.02 ‰ to which the model is held.
+const MaxCondition = 1e11
+
+// ConditionError reports a near-singular site with its condition number.
+type ConditionError struct {
+	Site   string
+	System string // "14N" or "15N"
+	Cond   float64
+}
+
+func (e *ConditionError) Error() string {
+	return fmt.Sprintf("site %q is numerically ill-conditioned: the %s steady-state system has condition number %.3g (limit %.0e); check for pools that barely exchange with the rest or rates many orders of magnitude apart", e.Site, e.System, e.Cond, MaxCondition)
+}
+
+// State is the amount of each isotope in each pool, kg N/ha (14N and 15N
+// summed give the pool), and of nitrate oxygen when it was computed (in
+// the same units times three O per N).
+type State struct {
+	N14, N15 []float64
+	O16, O18 float64
+	HasO     bool
+}
+
+// Total returns the N in pool i, kg N/ha.
+func (x *State) Total(i int) float64 { return x.N14[i] + x.N15[i] }
+
+// Delta15 returns the δ15N (‰ AIR) of pool i.
+func (x *State) Delta15(i int) float64 { return Delta(x.N15[i]/x.N14[i], RAir) }
+
+// CopyFrom makes x a copy of y, reusing x's storage.
+func (x *State) CopyFrom(y *State) {
+	x.N14 = append(x.N14[:0], y.N14...)
+	x.N15 = append(x.N15[:0], y.N15...)
+	x.O16, x.O18, x.HasO = y.O16, y.O18, y.HasO
+}
+
+// Model evaluates one site. It keeps workspaces between calls, so a Model
+// must not be used by two goroutines at once; make one per worker.
+type Model struct {
+	Site    *Site
+	n       int
+	nitrate int
+	// workspaces
+	a        *mat.Dense // n×n
+	lu       mat.LU
+	rhs, sol *mat.VecDense
+	aug, exp mat.Dense // augmented matrix and its exponential
+	z0       []float64
+}
+
+// NewModel prepares a model of the site.
+func NewModel(s *Site) *Model {
+	n := len(s.Pools)
+	return &Model{
+		Site:    s,
+		n:       n,
+		nitrate: s.PoolIndex("nitrate"),
+		a:       mat.NewDense(n, n, nil),
+		rhs:     mat.NewVecDense(n, nil),
+		sol:     mat.NewVecDense(n, nil),
+	}
+}
+
+// rate constant of transfer j for isotope iso (0: 14N, 1: 15N).
+func kIso(p *Params, j, iso int) float64 {
+	if iso == 0 {
+		return p.K[j]
+	}
+	return p.K[j] / Alpha(p.Eps15[j])
+}
+
+// inputSplit returns the 14N and 15N (or 16O and 18O) parts of an amount F
+// with ratio R: F/(1+R) and F·R/(1+R).
+func inputSplit(f, r float64) (light, heavy float64) {
+	return f / (1 + r), f * r / (1 + r)
+}
+
+// fillN writes K (n×n) and b (n) of one N isotope into a and rhs.
+func (m *Model) fillN(p *Params, iso int, a *mat.Dense, b []float64) {
+	a.Zero()
+	clear(b)
+	for j, t := range m.Site.Transfers {
+		k := kIso(p, j, iso)
+		if k == 0 {
+			continue
+		}
+		a.Set(t.From, t.From, a.At(t.From, t.From)-k)
+		if t.To != Out {
+			a.Set(t.To, t.From, a.At(t.To, t.From)+k)
+		}
+	}
+	for _, in := range p.Inputs {
+		l, h := inputSplit(in.RateKgPerHaYr, Ratio(in.D15N, RAir))
+		if iso == 0 {
+			b[in.To] += l
+		} else {
+			b[in.To] += h
+		}
+	}
+}
+
+// Steady writes the steady state of the system with parameters p into dst;
+// nitrate oxygen is computed when withO is set.
+func (m *Model) Steady(p *Params, withO bool, dst *State) error {
+	n := m.n
+	dst.N14 = resize(dst.N14, n)
+	dst.N15 = resize(dst.N15, n)
+	for iso := range 2 {
+		m.fillN(p, iso, m.a, m.rhs.RawVector().Data)
+		m.lu.Factorize(m.a)
+		if c := m.lu.Cond(); !(c <= MaxCondition) {
+			return &ConditionError{Site: m.Site.ID, System: [2]string{"14N", "15N"}[iso], Cond: c}
+		}
+		m.rhs.ScaleVec(-1, m.rhs)
+		if err := m.lu.SolveVecTo(m.sol, false, m.rhs); err != nil {
+			return fmt.Errorf("site %q steady state: %w", m.Site.ID, err)
+		}
+		out := dst.N14
+		if iso == 1 {
+			out = dst.N15
+		}
+		copy(out, m.sol.RawVector().Data)
+	}
+	dst.HasO = withO
+	dst.O16, dst.O18 = 0, 0
+	if withO {
+		g16, g18, l16, l18 := m.oxygenRates(p, dst.N14, dst.N15)
+		dst.O16, dst.O18 = g16/l16, g18/l18
+	}
+	return nil
+}
+
+// oxygenRates returns the nitrate-O gains (constant at the given N state) and
+// first-order loss constants of 16O and 18O. O enters with every N flux into
+// nitrate (three O per N) at the nitrification δ18O and with nitrate inputs
+// at their δ18O; each transfer out of nitrate removes 16O at k and 18O at
+// k/α18.
+func (m *Model) oxygenRates(p *Params, n14, n15 []float64) (g16, g18, l16, l18 float64) {
+	q := m.nitrate
+	ln, hn := inputSplit(3, Ratio(p.NitrificationD18O, RVSMOW))
+	for j, t := range m.Site.Transfers {
+		if t.To == q {
+			flux := kIso(p, j, 0)*n14[t.From] + kIso(p, j, 1)*n15[t.From]
+			g16 += ln * flux
+			g18 += hn * flux
+		}
+		if t.From == q {
+			l16 += p.K[j]
+			l18 += p.K[j] / Alpha(p.Eps18[j])
+		}
+	}
+	for _, in := range p.Inputs {
+		if in.To == q {
+			l, h := inputSplit(3*in.RateKgPerHaYr, Ratio(in.D18O, RVSMOW))
+			g16 += l
+			g18 += h
+		}
+	}
+	return g16, g18, l16, l18
+}
+
+func resize(s []float64, n int) []float64 {
+	if cap(s) < n {
+		return make([]float64, n)
+	}
+	return s[:n]
+}
+
+// Advance writes into dst the state t years after x0 under parameters p,
+// exactly: z(t) = exp(A·t)·z0 + ∫exp(A·s)ds·c, read from the exponential of
+// the augmented matrix [[A·t, c·t], [0, 0]] (DESIGN §3). With withO the
+// nitrate oxygen pair is advanced together with the N isotopes (x0 must
+// then carry oxygen).
+func (m *Model) Advance(p *Params, x0 *State, t float64, withO bool, dst *State) error {
+	if t < 0 || math.IsNaN(t) || math.IsInf(t, 0) {
+		return fmt.Errorf("time must be a finite number of years ≥ 0, got %g", t)
+	}
+	if withO && !x0.HasO {
+		return fmt.Errorf("advance with nitrate oxygen needs a start state that has it")
+	}
+	m.expAugmented(p, t, withO)
+	m.applyExp(x0, withO, dst)
+	return nil
+}
+
+// size of the state vector: 14N and 15N of each pool, then 16O and 18O.
+func (m *Model) dim(withO bool) int {
+	if withO {
+		return 2*m.n + 2
+	}
+	return 2 * m.n
+}
+
+// fillAugmented writes [[A·t, c·t], [0, 0]] for the whole state into m.aug.
+func (m *Model) fillAugmented(p *Params, t float64, withO bool) {
+	n, d := m.n, m.dim(withO)
+	if r, _ := m.aug.Dims(); r != d+1 {
+		m.aug = *mat.NewDense(d+1, d+1, nil)
+		m.exp = *mat.NewDense(d+1, d+1, nil)
+	} else {
+		m.aug.Zero()
+	}
+	a := &m.aug
+	for iso := range 2 {
+		off := iso * n
+		for j, tr := range m.Site.Transfers {
+			k := kIso(p, j, iso) * t
+			if k == 0 {
+				continue
+			}
+			f := off + tr.From
+			a.Set(f, f, a.At(f, f)-k)
+			if tr.To != Out {
+				a.Set(off+tr.To, f, a.At(off+tr.To, f)+k)
+			}
+		}
+		for _, in := range p.Inputs {
+			l, h := inputSplit(in.RateKgPerHaYr, Ratio(in.D15N, RAir))
+			v := l
+			if iso == 1 {
+				v = h
+			}
+			a.Set(off+in.To, d, a.At(off+in.To, d)+v*t)
+		}
+	}
+	if !withO {
+		return
+	}
+	q, o16, o18 := m.nitrate, 2*n, 2*n+1
+	ln, hn := inputSplit(3, Ratio(p.NitrificationD18O, RVSMOW))
+	for j, tr := range m.Site.Transfers {
+		if tr.To == q {
+			k14, k15 := kIso(p, j, 0)*t, kIso(p, j, 1)*t
+			a.Set(o16, tr.From, a.At(o16, tr.From)+ln*k14)
+			a.Set(o16, n+tr.From, a.At(o16, n+tr.From)+ln*k15)
+			a.Set(o18, tr.From, a.At(o18, tr.From)+hn*k14)
+			a.Set(o18, n+tr.From, a.At(o18, n+tr.From)+hn*k15)
+		}
+		if tr.From == q {
+			a.Set(o16, o16, a.At(o16, o16)-p.K[j]*t)
+			a.Set(o18, o18, a.At(o18, o18)-p.K[j]/Alpha(p.Eps18[j])*t)
+		}
+	}
+	for _, in := range p.Inputs {
+		if in.To == q {
+			l, h := inputSplit(3*in.RateKgPerHaYr, Ratio(in.D18O, RVSMOW))
+			a.Set(o16, d, a.At(o16, d)+l*t)
+			a.Set(o18, d, a.At(o18, d)+h*t)
+		}
+	}
+}
+
+// expAugmented leaves exp([[A·t, c·t], [0, 0]]) in m.exp.
+func (m *Model) expAugmented(p *Params, t float64, withO bool) {
+	m.fillAugmented(p, t, withO)
+	m.exp.Exp(&m.aug)
+}
+
+// applyExp computes dst = E·[z0; 1] with E = m.exp.
+func (m *Model) applyExp(x0 *State, withO bool, dst *State) {
+	n, d := m.n, m.dim(withO)
+	z := resize(m.z0, d)
+	m.z0 = z
+	copy(z, x0.N14)
+	copy(z[n:], x0.N15)
+	if withO {
+		z[2*n], z[2*n+1] = x0.O16, x0.O18
+	}
+	dst.N14 = resize(dst.N14, n)
+	dst.N15 = resize(dst.N15, n)
+	for i := range d {
+		v := m.exp.At(i, d)
+		for j := range d {
+			v += m.exp.At(i, j) * z[j]
+		}
+		switch {
+		case i < n:
+			dst.N14[i] = v
+		case i < 2*n:
+			dst.N15[i-n] = v
+		case i == 2*n:
+			dst.O16 = v
+		default:
+			dst.O18 = v
+		}
+	}
+	dst.HasO = withO
+	if !withO {
+		dst.O16, dst.O18 = 0, 0
+	}
+}
+
+// Trajectory returns the states at the given times (years after x0, sorted
+// ascending, ≥ 0). Equal steps reuse one exponential: a uniform grid of m
+// points costs one matrix exponential and m matrix–vector products.
+func (m *Model) Trajectory(p *Params, x0 *State, times []float64, withO bool) ([]State, error) {
+	out := make([]State, len(times))
+	prev := 0.0
+	cur := State{}
+	cur.CopyFrom(x0)
+	lastStep := math.NaN()
+	for i, t := range times {
+		if t < prev || math.IsNaN(t) || math.IsInf(t, 0) {
+			return nil, fmt.Errorf("trajectory times must be finite, ascending and ≥ 0 (got %g after %g)", t, prev)
+		}
+		step := t - prev
+		if !(math.Abs(step-lastStep) <= 1e-12*step) {
+			m.expAugmented(p, step, withO)
+			lastStep = step
+		}
+		m.applyExp(&cur, withO, &out[i])
+		cur.CopyFrom(&out[i])
+		prev = t
+	}
+	return out, nil
+}

@@ -1,0 +1,182 @@
+package forward
+
+import (
+	"fmt"
+	"math"
+	"slices"
+
+	"gonum.org/v1/gonum/floats"
+
+	"nlens/knowledge"
+)
+
+// Change is what happens at t = 0: rate constants of processes multiplied,
+// and new inputs added.
+type Change struct {
+	Factors   []Factor
+	Additions []InputParam
+}
+
+// Factor multiplies the rate constants of every transfer of a process.
+type Factor struct {
+	Process string
+	Factor  float64
+}
+
+// SourceInput returns an input of rate kg N/ha/yr of a knowledge source to
+// its receiving pool, at the source's typical δ15N (and δ18O).
+func SourceInput(s *Site, kb *knowledge.Base, source string, rate float64) (InputParam, error) {
+	src, ok := kb.Source(source)
+	if !ok {
+		return InputParam{}, fmt.Errorf("unknown source %q", source)
+	}
+	to := s.PoolIndex(src.Pool)
+	if to < 0 {
+		return InputParam{}, fmt.Errorf("source %q enters the %s pool, which site %q does not have", source, src.Pool, s.ID)
+	}
+	in := InputParam{To: to, RateKgPerHaYr: rate, D15N: src.D15NPermil, D18O: s.NitrificationD18O}
+	if src.D18OPermil != nil {
+		in.D18O = *src.D18OPermil
+	}
+	return in, nil
+}
+
+// Apply returns a copy of p with the change made.
+func (c Change) Apply(s *Site, p *Params) (Params, error) {
+	var q Params
+	q.CopyFrom(p)
+	for _, f := range c.Factors {
+		if !(f.Factor >= 0) || math.IsInf(f.Factor, 0) {
+			return q, fmt.Errorf("factor for %s must be a finite number ≥ 0, got %g", f.Process, f.Factor)
+		}
+		if !slices.Contains(knowledge.Processes, f.Process) {
+			return q, fmt.Errorf("unknown process %q", f.Process)
+		}
+		if q.Scale(s, f.Process, f.Factor) == 0 {
+			return q, fmt.Errorf("site %q has no %s transfer to change", s.ID, f.Process)
+		}
+	}
+	for _, in := range c.Additions {
+		q.AddInput(in.To, in.RateKgPerHaYr, in.D15N, in.D18O)
+	}
+	return q, nil
+}
+
+// Simulation is a site's baseline steady state and its state after a change,
+// either t years later or at the new steady state.
+type Simulation struct {
+	Site           *Site
+	Years          *float64 // nil: the new steady state
+	Base, Changed  Params
+	Baseline, Then State
+	Warnings       []string
+	model          *Model
+}
+
+// PoolTolerance is the relative difference between a file's pool size and
+// the model's steady state above which Simulate warns (DESIGN §3: 10 %).
+const PoolTolerance = 0.10
+
+// Simulate computes the baseline steady state of the site and the state
+// after the change (at years, or the new steady state when years is nil).
+// Nitrate oxygen is always included.
+func Simulate(s *Site, c Change, years *float64) (*Simulation, error) {
+	sim := &Simulation{Site: s, Years: years, Base: s.Params(), model: NewModel(s)}
+	sim.Warnings = append(sim.Warnings, s.Warnings...)
+	var err error
+	if sim.Changed, err = c.Apply(s, &sim.Base); err != nil {
+		return nil, err
+	}
+	if err := sim.model.Steady(&sim.Base, true, &sim.Baseline); err != nil {
+		return nil, err
+	}
+	sim.Warnings = append(sim.Warnings, PoolWarnings(s, &sim.Baseline)...)
+	if years == nil {
+		err = sim.model.Steady(&sim.Changed, true, &sim.Then)
+	} else {
+		err = sim.model.Advance(&sim.Changed, &sim.Baseline, *years, true, &sim.Then)
+	}
+	if err != nil {
+		return nil, err
+	}
+	return sim, nil
+}
+
+// PoolWarnings compares the steady state with the file's pool sizes.
+func PoolWarnings(s *Site, x *State) []string {
+	var out []string
+	for i, name := range s.Pools {
+		file, model := s.PoolKg[i], x.Total(i)
+		if file > 0 && math.Abs(model-file) > PoolTolerance*file {
+			out = append(out, fmt.Sprintf("site %q: the steady-state %s pool is %.4g kg N/ha, %+.0f %% from the file's %.4g (the file's inputs and transfers do not balance for this pool; the model's value is used)", s.ID, name, model, 100*(model-file)/file, file))
+		}
+	}
+	return out
+}
+
+// Trajectory returns the changed state at each of the times (years after
+// the change, ascending).
+func (sim *Simulation) Trajectory(times []float64) ([]State, error) {
+	return sim.model.Trajectory(&sim.Changed, &sim.Baseline, times, true)
+}
+
+// Horizon settings for trajectories that run to the new steady state.
+const (
+	// SettleToleranceDelta: a δ observable within this of its new steady
+	// state (‰) counts as settled.
+	SettleToleranceDelta = 0.01
+	// MaxHorizonYears caps the search for the settling time.
+	MaxHorizonYears = 1e5
+	// FirstLogTimeYears is the first non-zero time of a log-spaced trajectory.
+	FirstLogTimeYears = 0.1
+)
+
+// TrajectoryTimes returns n times (years since the change) for a
+// trajectory: evenly spaced from 0 to years when years is given; otherwise 0
+// and then log-spaced from 0.1 year to the time by which every δ observable
+// is within 0.01 ‰ of the new steady state (found by doubling, at most
+// 1e5 years).
+func TrajectoryTimes(sim *Simulation, years *float64, n int) ([]float64, error) {
+	if n < 2 {
+		return nil, fmt.Errorf("a trajectory needs at least 2 times, got %d", n)
+	}
+	times := make([]float64, n)
+	if years != nil {
+		floats.Span(times, 0, *years)
+		return times, nil
+	}
+	var steady State
+	if err := sim.model.Steady(&sim.Changed, true, &steady); err != nil {
+		return nil, err
+	}
+	var obs []Observable
+	for _, name := range sim.Site.DeltaNames() {
+		o, _ := sim.Site.Observable(name)
+		obs = append(obs, o)
+	}
+	horizon := 1.0
+	var x State
+	for ; horizon < MaxHorizonYears; horizon *= 2 {
+		if err := sim.model.Advance(&sim.Changed, &sim.Baseline, horizon, true, &x); err != nil {
+			return nil, err
+		}
+		settled := true
+		for _, o := range obs {
+			if math.Abs(o.Value(&x, &sim.Changed)-o.Value(&steady, &sim.Changed)) > SettleToleranceDelta {
+				settled = false
+				break
+			}
+		}
+		if settled {
+			break
+		}
+	}
+	horizon = math.Max(math.Min(horizon, MaxHorizonYears), 10*FirstLogTimeYears)
+	times[0] = 0
+	if n == 2 {
+		times[1] = horizon
+		return times, nil
+	}
+	floats.LogSpan(times[1:], FirstLogTimeYears, horizon)
+	return times, nil
+}

@@ -1,0 +1,82 @@
+package report
+
+import (
+	"encoding/json"
+	"io"
+	"strconv"
+)
+
+// Answer is a quick calculation shown with its formula and source.
+type Answer struct {
+	Title   string     `json:"title"`
+	Formula []string   `json:"formula"`
+	Source  string     `json:"source"`
+	Inputs  []Quantity `json:"inputs"`
+	Results []Quantity `json:"results"`
+	Notes   []string   `json:"notes,omitempty"`
+}
+
+// Quantity is a named number with its unit.
+type Quantity struct {
+	Name  string   `json:"name"`
+	Value *float64 `json:"value"` // nil when undefined (never NaN in output)
+	Unit  string   `json:"unit"`
+}
+
+// Q builds a Quantity; a non-finite value becomes undefined.
+func Q(name string, v float64, unit string) Quantity { return Quantity{name, finite(v), unit} }
+
+// WriteAnswer renders an answer as text or JSON.
+func WriteAnswer(w io.Writer, a Answer, format string) error {
+	if format == FormatJSON {
+		enc := json.NewEncoder(w)
+		enc.SetIndent("", "  ")
+		return enc.Encode(a)
+	}
+	ew := &errWriter{w: w}
+	ew.printf("%s\n\n", a.Title)
+	for _, f := range a.Formula {
+		ew.printf("  %s\n", f)
+	}
+	ew.printf("  Source: %s\n\n", a.Source)
+	rows := func(qs []Quantity) [][]string {
+		var out [][]string
+		for _, q := range qs {
+			v := "undefined"
+			if q.Value != nil {
+				v = strconv.FormatFloat(*q.Value, 'f', decimalsFor(*q.Value), 64)
+			}
+			out = append(out, []string{q.Name, v, q.Unit})
+		}
+		return out
+	}
+	if err := table(ew, []string{"input", "value", "unit"}, "lrl", rows(a.Inputs)); err != nil {
+		return err
+	}
+	ew.printf("\n")
+	if err := table(ew, []string{"result", "value", "unit"}, "lrl", rows(a.Results)); err != nil {
+		return err
+	}
+	for _, n := range a.Notes {
+		ew.printf("\nNote: %s\n", n)
+	}
+	return ew.err
+}
+
+// decimalsFor shows small numbers with enough digits.
+func decimalsFor(v float64) int {
+	switch a := abs(v); {
+	case a == 0 || a >= 1:
+		return 3
+	case a >= 0.01:
+		return 4
+	}
+	return 7
+}
+
+func abs(v float64) float64 {
+	if v < 0 {
+		return -v
+	}
+	return v
+}

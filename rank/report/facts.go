@@ -1,0 +1,188 @@
+package report
+
+import (
+	"encoding/json"
+	"fmt"
+	"io"
+	"slices"
+	"strconv"
+	"strings"
+
+	"nlens/forward"
+	"nlens/knowledge"
+)
+
+// FactSections are the sections `nlens facts` can show.
+var FactSections = []string{"effects", "sources", "sites", "measurements", "references"}
+
+// Facts writes one section of the knowledge base (or all, for section "")
+// as a table, JSON, or (references only) BibTeX.
+func Facts(w io.Writer, kb *knowledge.Base, section, format string) error {
+	if section != "" && !slices.Contains(FactSections, section) {
+		return fmt.Errorf("unknown section %q (sections: %s)", section, strings.Join(FactSections, ", "))
+	}
+	sections := FactSections
+	if section != "" {
+		sections = []string{section}
+	}
+	switch format {
+	case FormatJSON:
+		return factsJSON(w, kb, sections)
+	case FormatBib:
+		if section != "references" {
+			return fmt.Errorf("--format bib applies to the references section only")
+		}
+		return BibTeX(w, kb.References)
+	case FormatTable, "":
+	default:
+		return fmt.Errorf("facts cannot write format %q (table, json, or bib for references)", format)
+	}
+	ew := &errWriter{w: w}
+	for i, s := range sections {
+		if i > 0 {
+			ew.printf("\n")
+		}
+		var err error
+		switch s {
+		case "effects":
+			err = effectsTable(ew, kb)
+		case "sources":
+			err = sourcesTable(ew, kb)
+		case "sites":
+			err = sitesTable(ew, kb)
+		case "measurements":
+			err = measurementsTable(ew, kb)
+		case "references":
+			err = referencesList(ew, kb)
+		}
+		if err != nil {
+			return err
+		}
+	}
+	return ew.err
+}
+
+func cites(kb *knowledge.Base, keys []string) string {
+	var out []string
+	for _, k := range keys {
+		if r, ok := kb.Reference(k); ok {
+			out = append(out, r.Cite())
+		}
+	}
+	return strings.Join(out, "; ")
+}
+
+func fmtRange(r []float64) string {
+	if len(r) != 2 {
+		return ""
+	}
+	return fmt.Sprintf("%s to %s", strconv.FormatFloat(r[0], 'g', 4, 64), strconv.FormatFloat(r[1], 'g', 4, 64))
+}
+
+func effectsTable(w io.Writer, kb *knowledge.Base) error {
+	fmt.Fprintf(w, "Isotope effects, ε in ‰ (positive: product depleted; α = 1 + ε/1000)\n")
+	fmt.Fprintf(w, "Nitrification δ18O of nitrate O: %g ‰ VSMOW (%s; %s)\n\n", kb.NitrateOxygen.NitrificationD18OPermil, fmtRange(kb.NitrateOxygen.RangePermil), kb.NitrateOxygen.Status)
+	var rows [][]string
+	for _, e := range kb.Effects {
+		ratio := ""
+		if e.D18ORatio != nil {
+			ratio = strconv.FormatFloat(*e.D18ORatio, 'g', 3, 64)
+		}
+		src := cites(kb, e.Refs)
+		if src == "" {
+			src = e.Status
+		}
+		rows = append(rows, []string{e.ID, strconv.FormatFloat(e.EpsilonPermil, 'g', 4, 64), fmtRange(e.RangePermil), e.Expressed, ratio, src})
+	}
+	return table(w, []string{"process", "ε", "range", "expressed", "ε18/ε15", "sources"}, "lrllrl", rows)
+}
+
+func sourcesTable(w io.Writer, kb *knowledge.Base) error {
+	fmt.Fprintf(w, "N sources: δ15N in ‰ vs AIR, δ18O in ‰ vs VSMOW\n\n")
+	var rows [][]string
+	for _, s := range kb.Sources {
+		d18 := ""
+		if s.D18OPermil != nil {
+			d18 = strconv.FormatFloat(*s.D18OPermil, 'g', 4, 64)
+		}
+		rows = append(rows, []string{s.ID, s.Pool, strconv.FormatFloat(s.D15NPermil, 'g', 4, 64), fmtRange(s.D15NRangePermil), d18, cites(kb, s.Refs)})
+	}
+	return table(w, []string{"source", "enters", "δ15N", "range", "δ18O", "sources"}, "llrlrl", rows)
+}
+
+func sitesTable(w io.Writer, kb *knowledge.Base) error {
+	fmt.Fprintf(w, "Site templates (use with --site ID or site: {template: ID})\n\n")
+	var rows [][]string
+	for _, id := range kb.SiteIDs() {
+		sf, _ := kb.Site(id)
+		s, err := forward.ParseSite(sf.Name, sf.Data, kb)
+		if err != nil {
+			return err
+		}
+		rows = append(rows, []string{id, strings.Join(s.Pools, " "), s.Description})
+	}
+	return table(w, []string{"template", "pools", "description"}, "lll", rows)
+}
+
+func measurementsTable(w io.Writer, kb *knowledge.Base) error {
+	fmt.Fprintf(w, "Measurement catalogue (sd in ‰, or on the log scale for pools and fluxes)\n\n")
+	var rows [][]string
+	for _, m := range kb.Measurements {
+		rows = append(rows, []string{m.ID, m.Observable, strconv.FormatFloat(m.AnalyticalSD, 'g', 3, 64), strconv.FormatFloat(m.FieldSD, 'g', 3, 64), knowledge.CostLabel(m.Cost), m.Method})
+	}
+	return table(w, []string{"measurement", "observable", "lab sd", "field sd", "cost", "method"}, "llrrll", rows)
+}
+
+func referencesList(w io.Writer, kb *knowledge.Base) error {
+	fmt.Fprintf(w, "References (%d)\n\n", len(kb.References))
+	for _, r := range kb.References {
+		fmt.Fprintf(w, "[%s] %s\n", r.Key, FullReference(r))
+	}
+	return nil
+}
+
+type factsOut struct {
+	NitrateOxygen *knowledge.NitrateOxygen `json:"nitrate_oxygen,omitempty"`
+	Effects       []knowledge.Effect       `json:"effects,omitempty"`
+	Sources       []knowledge.Source       `json:"sources,omitempty"`
+	Sites         []siteOut                `json:"sites,omitempty"`
+	Measurements  []knowledge.Measurement  `json:"measurements,omitempty"`
+	References    []knowledge.Reference    `json:"references,omitempty"`
+}
+
+type siteOut struct {
+	ID          string   `json:"id"`
+	Description string   `json:"description"`
+	Pools       []string `json:"pools"`
+	References  []string `json:"references"`
+	Note        string   `json:"note"`
+}
+
+func factsJSON(w io.Writer, kb *knowledge.Base, sections []string) error {
+	var out factsOut
+	for _, s := range sections {
+		switch s {
+		case "effects":
+			out.NitrateOxygen = &kb.NitrateOxygen
+			out.Effects = kb.Effects
+		case "sources":
+			out.Sources = kb.Sources
+		case "sites":
+			for _, id := range kb.SiteIDs() {
+				sf, _ := kb.Site(id)
+				site, err := forward.ParseSite(sf.Name, sf.Data, kb)
+				if err != nil {
+					return err
+				}
+				out.Sites = append(out.Sites, siteOut{id, site.Description, site.Pools, site.References, site.Note})
+			}
+		case "measurements":
+			out.Measurements = kb.Measurements
+		case "references":
+			out.References = kb.References
+		}
+	}
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(out)
+}

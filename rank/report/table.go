@@ -1,0 +1,170 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+
+	"github.com/olekukonko/tablewriter"
+	"github.com/olekukonko/tablewriter/renderer"
+	"github.com/olekukonko/tablewriter/tw"
+)
+
+// Formats every command accepts for its main output.
+const (
+	FormatTable    = "table"
+	FormatText     = "text"
+	FormatMarkdown = "markdown"
+	FormatJSON     = "json"
+	FormatBib      = "bib"
+)
+
+// table renders rows under headers as plain columns with a rule under the
+// header; align gives 'l' or 'r' per column. It renders into a buffer first
+// because tablewriter swallows write errors (GO-NOTES §1).
+func table(w io.Writer, headers []string, align string, rows [][]string) error {
+	return renderTable(w, headers, align, rows, false)
+}
+
+// markdownTable renders a GitHub-flavoured Markdown table, escaping |.
+func markdownTable(w io.Writer, headers []string, align string, rows [][]string) error {
+	esc := func(s []string) []string {
+		out := make([]string, len(s))
+		for i, v := range s {
+			out[i] = strings.ReplaceAll(v, "|", `\|`)
+		}
+		return out
+	}
+	escaped := make([][]string, len(rows))
+	for i, r := range rows {
+		escaped[i] = esc(r)
+	}
+	return renderTable(w, esc(headers), align, escaped, true)
+}
+
+func renderTable(w io.Writer, headers []string, align string, rows [][]string, md bool) error {
+	cols := make([]tw.Align, len(headers))
+	for i := range cols {
+		cols[i] = tw.AlignLeft
+		if i < len(align) && align[i] == 'r' {
+			cols[i] = tw.AlignRight
+		}
+	}
+	ca := tw.CellAlignment{PerColumn: cols}
+	var r tw.Renderer
+	if md {
+		r = renderer.NewMarkdown()
+	} else {
+		r = renderer.NewBlueprint(tw.Rendition{
+			Borders: tw.BorderNone,
+			Symbols: tw.NewSymbols(tw.StyleASCII),
+			Settings: tw.Settings{
+				Lines:      tw.Lines{ShowHeaderLine: tw.On},
+				Separators: tw.Separators{BetweenColumns: tw.Off, BetweenRows: tw.Off},
+			},
+		})
+	}
+	var buf bytes.Buffer
+	t := tablewriter.NewTable(&buf,
+		tablewriter.WithRenderer(r),
+		tablewriter.WithHeaderAutoFormat(tw.Off),
+		tablewriter.WithRowAlignmentConfig(ca),
+		tablewriter.WithHeaderAlignmentConfig(ca),
+		tablewriter.WithRowAutoWrap(tw.WrapNone),
+	)
+	t.Header(toAny(headers)...)
+	for _, row := range rows {
+		if err := t.Append(row); err != nil {
+			return err
+		}
+	}
+	if err := t.Render(); err != nil {
+		return err
+	}
+	lines := strings.Split(buf.String(), "\n")
+	for i, l := range lines {
+		lines[i] = strings.TrimRight(l, " ")
+	}
+	_, err := io.WriteString(w, strings.Join(lines, "\n"))
+	return err
+}
+
+func toAny(s []string) []any {
+	out := make([]any, len(s))
+	for i, v := range s {
+		out[i] = v
+	}
+	return out
+}
+
+// signed formats a δ or shift with sign and fixed decimals; a non-finite
+// value prints as "n/a" so that NaN or Inf never reach a user.
+func signed(v float64, decimals int) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "n/a"
+	}
+	if v == 0 || math.Abs(v) < 0.5*math.Pow(10, -float64(decimals)) {
+		v = 0
+	}
+	return strconv.FormatFloat(v, 'f', decimals, 64)
+}
+
+// plusSigned is signed with an explicit + for positive values.
+func plusSigned(v float64, decimals int) string {
+	s := signed(v, decimals)
+	if v > 0 && s != "n/a" && strings.Trim(s, "0.") != "" {
+		return "+" + s
+	}
+	return s
+}
+
+// num formats a positive quantity with about four significant digits.
+func num(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "n/a"
+	}
+	switch a := math.Abs(v); {
+	case a == 0:
+		return "0"
+	case a >= 1e5 || a < 1e-3:
+		return strconv.FormatFloat(v, 'g', 3, 64)
+	case a >= 100:
+		return strconv.FormatFloat(v, 'f', 0, 64)
+	case a >= 10:
+		return strconv.FormatFloat(v, 'f', 1, 64)
+	case a >= 1:
+		return strconv.FormatFloat(v, 'f', 2, 64)
+	}
+	return strconv.FormatFloat(v, 'f', 3, 64)
+}
+
+// finite replaces a non-finite value by nil for JSON.
+func finite(v float64) *float64 {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return nil
+	}
+	return &v
+}
+
+// errWriter records the first write error so a sequence of Fprintf calls can
+// be checked once.
+type errWriter struct {
+	w   io.Writer
+	err error
+}
+
+func (e *errWriter) Write(p []byte) (int, error) {
+	if e.err != nil {
+		return 0, e.err
+	}
+	n, err := e.w.Write(p)
+	e.err = err
+	return n, err
+}
+
+func (e *errWriter) printf(format string, args ...any) {
+	fmt.Fprintf(e, format, args...)
+}
