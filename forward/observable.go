@@ -89,13 +89,13 @@ func (s *Site) Observable(name string) (Observable, error) {
 		return nil
 	}
 	switch {
-	case slices.Contains(PoolNames, name):
-		return one(name)
 	case name == "foliage":
 		if s.PoolIndex("foliage") >= 0 {
 			return one("foliage")
 		}
 		return one("plant")
+	case slices.Contains(PoolNames, name):
+		return one(name)
 	case name == "roots" || name == "litter":
 		return one("plant")
 	case name == "soil-ammonium":
@@ -222,4 +222,10 @@ func (s *Site) DeltaNames() []string {
 		}
 	}
 	return out
+}
+
+// Same reports whether two observables measure the same quantity (for
+// example soil-nitrate and leachate-nitrate are both the nitrate pool's δ).
+func (o Observable) Same(x Observable) bool {
+	return o.Kind == x.Kind && slices.Equal(o.pools, x.pools) && slices.Equal(o.transfers, x.transfers)
 }

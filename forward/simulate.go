@@ -133,36 +133,70 @@ const (
 
 // TrajectoryTimes returns n times (years since the change) for a
 // trajectory: evenly spaced from 0 to years when years is given; otherwise 0
-// and then log-spaced from 0.1 year to the time by which every δ observable
-// is within 0.01 ‰ of the new steady state (found by doubling, at most
-// 1e5 years).
+// and then log-spaced from 0.1 year to the settling time of the change
+// (see SettlingTime).
 func TrajectoryTimes(sim *Simulation, years *float64, n int) ([]float64, error) {
-	if n < 2 {
-		return nil, fmt.Errorf("a trajectory needs at least 2 times, got %d", n)
-	}
-	times := make([]float64, n)
 	if years != nil {
-		floats.Span(times, 0, *years)
-		return times, nil
-	}
-	var steady State
-	if err := sim.model.Steady(&sim.Changed, true, &steady); err != nil {
-		return nil, err
+		return EvenTimes(*years, n)
 	}
 	var obs []Observable
 	for _, name := range sim.Site.DeltaNames() {
 		o, _ := sim.Site.Observable(name)
 		obs = append(obs, o)
 	}
+	horizon, err := sim.model.SettlingTime(&sim.Changed, &sim.Baseline, obs)
+	if err != nil {
+		return nil, err
+	}
+	return LogTimes(horizon, n)
+}
+
+// EvenTimes returns n times evenly spaced from 0 to horizon years.
+func EvenTimes(horizon float64, n int) ([]float64, error) {
+	if n < 2 {
+		return nil, fmt.Errorf("a trajectory needs at least 2 times, got %d", n)
+	}
+	times := make([]float64, n)
+	floats.Span(times, 0, horizon)
+	return times, nil
+}
+
+// LogTimes returns 0 and then n−1 times log-spaced from 0.1 year to horizon.
+func LogTimes(horizon float64, n int) ([]float64, error) {
+	if n < 2 {
+		return nil, fmt.Errorf("a trajectory needs at least 2 times, got %d", n)
+	}
+	horizon = math.Max(horizon, 10*FirstLogTimeYears)
+	times := make([]float64, n)
+	if n == 2 {
+		times[1] = horizon
+		return times, nil
+	}
+	floats.LogSpan(times[1:], FirstLogTimeYears, horizon)
+	return times, nil
+}
+
+// SettlingTime returns the time (years, found by doubling from 1 and at
+// most MaxHorizonYears) by which every observable is within
+// SettleToleranceDelta of its new steady state after the system moves from
+// x0 under parameters p.
+func (m *Model) SettlingTime(p *Params, x0 *State, obs []Observable) (float64, error) {
+	withO := x0.HasO
+	var steady, x State
+	if err := m.Steady(p, withO, &steady); err != nil {
+		return 0, err
+	}
 	horizon := 1.0
-	var x State
 	for ; horizon < MaxHorizonYears; horizon *= 2 {
-		if err := sim.model.Advance(&sim.Changed, &sim.Baseline, horizon, true, &x); err != nil {
-			return nil, err
+		if err := m.Advance(p, x0, horizon, withO, &x); err != nil {
+			return 0, err
 		}
 		settled := true
 		for _, o := range obs {
-			if math.Abs(o.Value(&x, &sim.Changed)-o.Value(&steady, &sim.Changed)) > SettleToleranceDelta {
+			if o.Kind == KindDelta18 && !withO {
+				continue
+			}
+			if math.Abs(o.Value(&x, p)-o.Value(&steady, p)) > SettleToleranceDelta {
 				settled = false
 				break
 			}
@@ -171,12 +205,5 @@ func TrajectoryTimes(sim *Simulation, years *float64, n int) ([]float64, error) 
 			break
 		}
 	}
-	horizon = math.Max(math.Min(horizon, MaxHorizonYears), 10*FirstLogTimeYears)
-	times[0] = 0
-	if n == 2 {
-		times[1] = horizon
-		return times, nil
-	}
-	floats.LogSpan(times[1:], FirstLogTimeYears, horizon)
-	return times, nil
+	return math.Min(horizon, MaxHorizonYears), nil
 }

@@ -1,29 +1,55 @@
 package main
 
 import (
+	"embed"
+	"fmt"
+	"path"
 	"strings"
 
 	"github.com/spf13/cobra"
+
+	"nlens/rank/report"
 )
 
+//go:embed demo
+var demoFiles embed.FS
+
+// demoStudy is the embedded demo's study file (also in testdata/demo/).
+const demoStudy = "demo/study.yaml"
+
+// readDemoFile reads files the demo study refers to from the embedded copy.
+func readDemoFile(name string) ([]byte, error) {
+	return demoFiles.ReadFile(path.Clean(strings.ReplaceAll(name, "\\", "/")))
+}
+
 func newDemoCmd(e *env) *cobra.Command {
-	return &cobra.Command{
-		Use:     "demo",
-		Short:   "Run nlens on its built-in example (no files needed)",
-		Long:    "demo runs the model on a built-in template so you can see what nlens prints.",
-		Example: "  nlens demo",
+	opt := explainOptions{}
+	cmd := &cobra.Command{
+		Use:   "demo",
+		Short: "Run explain on the built-in example study (no files needed)",
+		Long: strings.TrimSpace(`
+demo runs nlens explain on an embedded example: an invented field
+experiment, with realistic numbers, made up for this demonstration. The same
+study is in testdata/demo/ of the source tree.`),
+		Example: "  nlens demo\n  nlens demo --format json",
 		Args:    cobra.NoArgs,
-		RunE: func(_ *cobra.Command, _ []string) error {
+		RunE: func(cmd *cobra.Command, _ []string) error {
 			return wrapRun(func() error {
-				return runSimulate(e, simulateOptions{
-					site:    "temperate-deciduous-forest",
-					changes: []string{"nitrification=x3", "leaching-nitrate=x3"},
-					years:   2, yearsSet: true,
-					format: "table",
-				})
+				data, err := demoFiles.ReadFile(demoStudy)
+				if err != nil {
+					return internal{err}
+				}
+				opt.studyPath, opt.studyData = demoStudy, data
+				if err := runExplain(cmd.Context(), e, opt); err != nil {
+					return err
+				}
+				if opt.format == report.FormatTable {
+					fmt.Fprintf(e.stdout, "\nThis was the built-in demo (invented data). Your own study: nlens explain study.yaml\n")
+				}
+				return nil
 			})
 		},
 	}
+	addExplainFlags(cmd, &opt)
+	return cmd
 }
-
-var _ = strings.TrimSpace

@@ -1,0 +1,190 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"nlens/rank"
+	"nlens/rank/report"
+	"nlens/rank/study"
+	"nlens/rules"
+)
+
+type explainOptions struct {
+	studyPath     string
+	studyData     []byte // set for the embedded demo
+	format        string
+	seed          uint64
+	draws         int
+	modelError    float64
+	rulesFiles    []string
+	allowEnriched bool
+	out           string
+	force         bool
+}
+
+func newExplainCmd(e *env) *cobra.Command {
+	opt := explainOptions{}
+	cmd := &cobra.Command{
+		Use:   "explain STUDY.yaml",
+		Short: "Rank the explanations of observed δ15N shifts and say what to measure next",
+		Long: strings.TrimSpace(`
+explain reads a study (site, comparisons, group means or per-sample rows),
+simulates every candidate change in N cycling on the site model, scores each
+against the observed shifts with the uncertainty of every isotope effect
+propagated, and ranks them by posterior probability. For the leading
+explanations it predicts every measurement not yet made and ranks them by
+the information they would give about which explanation holds.
+
+Formats: table (default, for a terminal), json (for scripts).`),
+		Example: strings.TrimSpace(`
+  nlens explain study.yaml
+  nlens explain study.yaml --format json --seed 7
+  nlens explain study.yaml --draws 200 --model-error 0.3
+  nlens explain study.yaml --rules my-rules.yaml`),
+		Args: cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opt.studyPath = args[0]
+			return wrapRun(func() error { return runExplain(cmd.Context(), e, opt) })
+		},
+	}
+	addExplainFlags(cmd, &opt)
+	return cmd
+}
+
+func addExplainFlags(cmd *cobra.Command, opt *explainOptions) {
+	f := cmd.Flags()
+	f.StringVar(&opt.format, "format", report.FormatTable, "table or json")
+	f.Uint64Var(&opt.seed, "seed", rank.DefaultSeed, "random seed: the same seed gives the same output")
+	f.IntVar(&opt.draws, "draws", rank.DefaultDraws, "nuisance draws of isotope effects, source δ and rates")
+	f.Float64Var(&opt.modelError, "model-error", rank.DefaultModelError, "structural model error σ_model, ‰")
+	f.StringArrayVar(&opt.rulesFiles, "rules", nil, "extra candidates or context rules (YAML; repeatable)")
+	f.BoolVar(&opt.allowEnriched, "allow-enriched", false, "accept |δ15N| > 100 ‰ (15N tracer studies)")
+}
+
+func runExplain(ctx context.Context, e *env, opt explainOptions) error {
+	if err := checkFormat(opt.format, report.FormatTable, report.FormatJSON); err != nil {
+		return err
+	}
+	if opt.draws < 1 || opt.draws > 100000 {
+		return badf("--draws must be between 1 and 100000, got %d", opt.draws)
+	}
+	if !(opt.modelError > 0) || math.IsInf(opt.modelError, 0) {
+		return badf("--model-error must be a positive number of ‰, got %g", opt.modelError)
+	}
+	st, err := loadStudy(e, opt)
+	if err != nil {
+		return err
+	}
+	set, err := loadRules(e, opt.rulesFiles)
+	if err != nil {
+		return err
+	}
+	if ctx == nil {
+		ctx = context.Background()
+	}
+	ro := rank.Options{Seed: opt.seed, Draws: opt.draws, ModelError: opt.modelError, Version: version}
+	if e.stderrTerminal {
+		p := newProgressBar(e.stderr, time.Second)
+		defer p.finish()
+		ro.Progress = p.update
+	}
+	res, err := rank.Explain(ctx, st, e.kb, set, ro)
+	if err != nil {
+		return err
+	}
+	if opt.format == report.FormatJSON {
+		return report.JSON(e.stdout, res)
+	}
+	return report.Table(e.stdout, res, report.ExplainOptions{})
+}
+
+func loadStudy(e *env, opt explainOptions) (*study.Study, error) {
+	so := study.Options{AllowEnriched: opt.allowEnriched}
+	if opt.studyData != nil {
+		return study.Parse(opt.studyPath, opt.studyData, e.kb, so, readDemoFile)
+	}
+	return study.Load(opt.studyPath, e.kb, so)
+}
+
+func loadRules(e *env, paths []string) (*rules.Set, error) {
+	if len(paths) == 0 {
+		return rules.Default(e.kb)
+	}
+	files, err := rules.DefaultFiles()
+	if err != nil {
+		return nil, internal{err}
+	}
+	for _, p := range paths {
+		data, err := os.ReadFile(p)
+		if err != nil {
+			return nil, badf("cannot read rules file %s: %v", p, err)
+		}
+		files = append(files, rules.File{Name: p, Data: data})
+	}
+	return rules.Parse(e.kb, files...)
+}
+
+func newCheckCmd(e *env) *cobra.Command {
+	var allowEnriched bool
+	cmd := &cobra.Command{
+		Use:   "check STUDY.yaml",
+		Short: "Validate a study file and print the observed shifts",
+		Long: strings.TrimSpace(`
+check reads a study file and its samples CSV, reports every problem with
+file, line and field, and prints the observed shifts (treatment − control,
+Welch standard errors) that explain would work with.`),
+		Example: "  nlens check study.yaml",
+		Args:    cobra.ExactArgs(1),
+		RunE: func(_ *cobra.Command, args []string) error {
+			return wrapRun(func() error {
+				st, err := study.Load(args[0], e.kb, study.Options{AllowEnriched: allowEnriched})
+				if err != nil {
+					return err
+				}
+				return report.Observed(e.stdout, st)
+			})
+		},
+	}
+	cmd.Flags().BoolVar(&allowEnriched, "allow-enriched", false, "accept |δ15N| > 100 ‰ (15N tracer studies)")
+	return cmd
+}
+
+// progressBar draws "explaining… 42 %" on a terminal once a run has taken
+// longer than a delay, and clears it at the end.
+type progressBar struct {
+	w     interface{ Write([]byte) (int, error) }
+	start time.Time
+	delay time.Duration
+	drawn bool
+	last  int
+}
+
+func newProgressBar(w interface{ Write([]byte) (int, error) }, delay time.Duration) *progressBar {
+	return &progressBar{w: w, start: time.Now(), delay: delay, last: -1}
+}
+
+func (p *progressBar) update(done, total int) {
+	if time.Since(p.start) < p.delay || total == 0 {
+		return
+	}
+	pct := 100 * done / total
+	if pct == p.last {
+		return
+	}
+	p.last = pct
+	p.drawn = true
+	fmt.Fprintf(p.w, "\rexplaining… %3d %%", pct)
+}
+
+func (p *progressBar) finish() {
+	if p.drawn {
+		fmt.Fprint(p.w, "\r                  \r")
+	}
+}

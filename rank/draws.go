@@ -1,0 +1,166 @@
+package rank
+
+import (
+	"math"
+	"math/rand/v2"
+
+	"gonum.org/v1/gonum/stat/distuv"
+
+	"nlens/forward"
+	"nlens/knowledge"
+	"nlens/rank/study"
+)
+
+// draw is one nuisance realisation φ: the site's parameters and the δ of
+// every knowledge source (for source candidates).
+type draw struct {
+	params  forward.Params
+	srcD15N map[string]float64
+	srcD18O map[string]float64
+}
+
+// sampleWithin draws from a knowledge distribution over [lo, hi] with mode
+// (or typical value) mode.
+func sampleWithin(dist string, lo, hi, mode float64, rng rand.Source) float64 {
+	if dist == knowledge.DistFixed || !(hi > lo) {
+		return mode
+	}
+	if dist == knowledge.DistUniform {
+		return distuv.Uniform{Min: lo, Max: hi, Src: rng}.Rand()
+	}
+	return distuv.NewTriangle(lo, hi, math.Min(math.Max(mode, lo), hi), rng).Rand()
+}
+
+// makeDraws returns n nuisance draws; draw 0 is the nominal site. Every ε
+// the site file does not fix is drawn from its knowledge distribution (ε18
+// from its ε15 times a ratio drawn from the knowledge ratio range); rates
+// with a spread are multiplied by exp(spread·z), z ~ N(0,1) (median kept);
+// inputs named by a knowledge source take δ15N (and δ18O) from its range
+// unless the file fixes them; the nitrification δ18O likewise. Sources the
+// comparison declares with a measured δ keep it.
+func makeDraws(site *forward.Site, kb *knowledge.Base, cmp *study.Comparison, n int, rng rand.Source) []draw {
+	measured15 := map[string]float64{}
+	measured18 := map[string]float64{}
+	for _, a := range cmp.Additions {
+		if a.D15N != nil {
+			measured15[a.Source] = *a.D15N
+		}
+		if a.D18O != nil {
+			measured18[a.Source] = *a.D18O
+		}
+	}
+	norm := distuv.Normal{Mu: 0, Sigma: 1, Src: rng}
+	out := make([]draw, n)
+	for d := range out {
+		p := site.Params()
+		dr := draw{srcD15N: map[string]float64{}, srcD18O: map[string]float64{}}
+		for _, s := range kb.Sources {
+			dr.srcD15N[s.ID] = s.D15NPermil
+			if s.D18OPermil != nil {
+				dr.srcD18O[s.ID] = *s.D18OPermil
+			}
+		}
+		if d > 0 {
+			for j, t := range site.Transfers {
+				eff, _ := kb.Effect(t.Process)
+				if !t.EpsilonFixed {
+					p.Eps15[j] = sampleWithin(eff.Distribution, eff.RangePermil[0], eff.RangePermil[1], eff.EpsilonPermil, rng)
+				}
+				if !t.Epsilon18Fixed {
+					ratio := t.D18ORatio
+					if eff.D18ORatio != nil && len(eff.D18ORatioRange) == 2 {
+						ratio = sampleWithin(knowledge.DistTriangular, eff.D18ORatioRange[0], eff.D18ORatioRange[1], *eff.D18ORatio, rng)
+					}
+					p.Eps18[j] = ratio * p.Eps15[j]
+				}
+				if t.Spread > 0 {
+					p.K[j] *= math.Exp(t.Spread * norm.Rand())
+				}
+			}
+			for i, in := range site.Inputs {
+				src, ok := kb.Source(in.Source)
+				if !ok {
+					continue
+				}
+				if !in.D15NFixed {
+					p.Inputs[i].D15N = sampleWithin(knowledge.DistTriangular, src.D15NRangePermil[0], src.D15NRangePermil[1], src.D15NPermil, rng)
+				}
+				if !in.D18OFixed && src.D18OPermil != nil {
+					p.Inputs[i].D18O = sampleWithin(knowledge.DistTriangular, src.D18ORangePermil[0], src.D18ORangePermil[1], *src.D18OPermil, rng)
+				}
+			}
+			if !site.NitrificationD18OFixed {
+				no := kb.NitrateOxygen
+				p.NitrificationD18O = sampleWithin(knowledge.DistTriangular, no.RangePermil[0], no.RangePermil[1], no.NitrificationD18OPermil, rng)
+			}
+			for _, s := range kb.Sources {
+				dr.srcD15N[s.ID] = sampleWithin(knowledge.DistTriangular, s.D15NRangePermil[0], s.D15NRangePermil[1], s.D15NPermil, rng)
+				if s.D18OPermil != nil {
+					dr.srcD18O[s.ID] = sampleWithin(knowledge.DistTriangular, s.D18ORangePermil[0], s.D18ORangePermil[1], *s.D18OPermil, rng)
+				}
+			}
+		}
+		for id, v := range measured15 {
+			dr.srcD15N[id] = v
+		}
+		for id, v := range measured18 {
+			dr.srcD18O[id] = v
+		}
+		dr.params = p
+		out[d] = dr
+	}
+	return out
+}
+
+// Weighting of draws by the control's absolute values.
+const (
+	// levelSDPermil is the structural error allowed between a site model's
+	// absolute δ and a real control plot's: sites of one biome differ by a
+	// few ‰ in foliar and soil δ15N (the scatter of Craine et al. 2009 and
+	// Amundson et al. 2003; value from memory).
+	levelSDPermil = 2.0
+	// levelSDLog is the same for pool sizes and fluxes, on the ln scale.
+	levelSDLog = 0.5
+	// minESSFraction: weights are tempered until the effective number of
+	// draws is at least this share of all draws.
+	minESSFraction = 0.25
+)
+
+// drawWeights returns normalised weights from how well each draw's baseline
+// reproduces the control means, tempered so that at least a quarter of the
+// draws count; worst is the largest mismatch, in SDs, of the best draw.
+func drawWeights(logw []float64) []float64 {
+	n := len(logw)
+	w := make([]float64, n)
+	ess := func(tau float64) float64 {
+		mx := math.Inf(-1)
+		for _, l := range logw {
+			mx = math.Max(mx, tau*l)
+		}
+		var s, s2 float64
+		for i, l := range logw {
+			w[i] = math.Exp(tau*l - mx)
+			s += w[i]
+		}
+		for i := range w {
+			w[i] /= s
+			s2 += w[i] * w[i]
+		}
+		return 1 / s2
+	}
+	target := minESSFraction * float64(n)
+	if ess(1) >= target {
+		return w
+	}
+	lo, hi := 0.0, 1.0
+	for range 50 {
+		mid := (lo + hi) / 2
+		if ess(mid) >= target {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	ess(lo)
+	return w
+}

@@ -1,0 +1,384 @@
+package rank
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"runtime"
+	"slices"
+	"sort"
+	"strings"
+	"sync"
+
+	"nlens/forward"
+	"nlens/knowledge"
+	"nlens/rank/study"
+	"nlens/rules"
+)
+
+// Options control a ranking run.
+type Options struct {
+	Seed uint64
+	// Draws is the number of nuisance draws φ (draw 0 is the nominal site).
+	Draws int
+	// ModelError is σ_model, the structural error of the model in ‰.
+	ModelError float64
+	// Workers bounds the goroutines; 0 means GOMAXPROCS.
+	Workers int
+	// Progress, if set, is called with the work done and the total.
+	Progress func(done, total int)
+	Version  string
+}
+
+// Defaults (DESIGN §5; the draw count is a speed–precision balance).
+const (
+	DefaultDraws      = 48
+	DefaultModelError = 0.5
+	DefaultSeed       = 1
+	// pairsFrom is how many of the best single candidates are paired.
+	pairsFrom = 4
+	// maxLeading bounds the hypotheses next measurements are scored against.
+	maxLeading = 5
+	// leadingMass: leading hypotheses cover this much posterior.
+	leadingMass = 0.95
+	// samplesPerHypothesis for measurement predictions.
+	samplesPerHypothesis = 32
+	// noFitP is the fit-check probability below which a hypothesis does not fit.
+	noFitP = 0.01
+	// indistinguishableSignal: a candidate whose predictions never depart
+	// from no change by more than this many combined standard errors is
+	// counted with "none".
+	indistinguishableSignal = 1.0
+	// defaultReplicates is assumed for a new measurement when the study's
+	// groups do not say.
+	defaultReplicates = 4
+)
+
+// Explain ranks the explanations of every comparison of the study.
+func Explain(ctx context.Context, st *study.Study, kb *knowledge.Base, set *rules.Set, opt Options) (*Result, error) {
+	if opt.Draws <= 0 {
+		opt.Draws = DefaultDraws
+	}
+	if opt.Draws > 100000 {
+		return nil, fmt.Errorf("--draws %d is more than 100000", opt.Draws)
+	}
+	if opt.ModelError == 0 {
+		opt.ModelError = DefaultModelError
+	}
+	if !(opt.ModelError > 0) || math.IsInf(opt.ModelError, 0) {
+		return nil, fmt.Errorf("the model error must be a positive number of ‰, got %g", opt.ModelError)
+	}
+	if opt.Workers <= 0 {
+		opt.Workers = runtime.GOMAXPROCS(0)
+	}
+	res := &Result{Version: opt.Version, Seed: opt.Seed, Draws: opt.Draws, ModelError: opt.ModelError,
+		StudyTitle: st.Title, StudyFile: st.File, SiteRef: st.SiteRef, SiteID: st.Site.ID}
+	prog := &progress{f: opt.Progress, total: len(st.Comparisons) * (len(set.Candidates) + pairsFrom*(pairsFrom-1)/2 + 4)}
+	for i := range st.Comparisons {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		cr, err := explainOne(ctx, st, &st.Comparisons[i], uint64(i), kb, set, opt, prog)
+		if err != nil {
+			return nil, fmt.Errorf("comparison %q: %w", st.Comparisons[i].Name, err)
+		}
+		cr.Warnings = append(slices.Clone(st.Warnings), cr.Warnings...)
+		res.Comparisons = append(res.Comparisons, *cr)
+	}
+	return res, nil
+}
+
+// progress counts finished work for the callback.
+type progress struct {
+	mu          sync.Mutex
+	f           func(done, total int)
+	done, total int
+}
+
+func (p *progress) add(n int) {
+	if p.f == nil {
+		return
+	}
+	p.mu.Lock()
+	p.done += n
+	if p.done > p.total {
+		p.total = p.done
+	}
+	d, t := p.done, p.total
+	p.mu.Unlock()
+	p.f(d, t)
+}
+
+// parallel runs f(i, w) for i in [0, n) on at most workers goroutines, each
+// with its own workspace.
+func parallel(n, workers int, site *forward.Site, f func(i int, w *worker)) {
+	if workers > n {
+		workers = n
+	}
+	if workers <= 1 {
+		w := newWorker(site)
+		for i := range n {
+			f(i, w)
+		}
+		return
+	}
+	jobs := make(chan int)
+	var wg sync.WaitGroup
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			w := newWorker(site)
+			for i := range jobs {
+				f(i, w)
+			}
+		}()
+	}
+	for i := range n {
+		jobs <- i
+	}
+	close(jobs)
+	wg.Wait()
+}
+
+type entry struct {
+	s      *scored
+	prior  float64
+	adj    []rules.Adjustment
+	cands  []*rules.Candidate
+	isPair bool
+}
+
+func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, index uint64, kb *knowledge.Base, set *rules.Set, opt Options, prog *progress) (*ComparisonResult, error) {
+	e := &engine{site: st.Site, kb: kb, set: set, cmp: cmp, opt: opt, ctx: st.ContextFor(cmp, kb)}
+	if err := e.setup(newWorker(st.Site), index); err != nil {
+		return nil, err
+	}
+	cr := &ComparisonResult{Name: cmp.Name, Years: cmp.Years, Observed: cmp.Observed}
+
+	// Singles.
+	var singles []*rules.Candidate
+	var compiled [][]*knob
+	for i := range set.Candidates {
+		c := &set.Candidates[i]
+		if c.ID == rules.None {
+			continue
+		}
+		ks, why := e.compile(c)
+		if ks == nil {
+			if why != "" {
+				e.warnf("%s not tested: %s", c.ID, why)
+			}
+			continue
+		}
+		singles = append(singles, c)
+		compiled = append(compiled, ks)
+	}
+	scores := make([]*scored, len(singles))
+	parallel(len(singles), opt.Workers, st.Site, func(i int, w *worker) {
+		if ctx.Err() != nil {
+			return
+		}
+		scores[i] = e.evaluate(w, singles[i].ID, compiled[i])
+		prog.add(1)
+	})
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	none := set.Candidate(rules.None)
+	nonePrior, noneAdj := set.Prior(none, e.ctx)
+	entries := []entry{{s: e.noneScored(), prior: nonePrior, adj: noneAdj, cands: []*rules.Candidate{none}}}
+	for i, c := range singles {
+		p, adj := set.Prior(c, e.ctx)
+		entries = append(entries, entry{s: scores[i], prior: p, adj: adj, cands: []*rules.Candidate{c}})
+	}
+
+	// Pairs of the best distinguishable singles, and of declared additions
+	// with the best processes.
+	ranked := slices.Clone(entries[1:])
+	sort.SliceStable(ranked, func(a, b int) bool {
+		return ranked[a].s.logZ+math.Log(ranked[a].prior) > ranked[b].s.logZ+math.Log(ranked[b].prior)
+	})
+	var top []entry
+	for _, en := range ranked {
+		if en.s.signal >= indistinguishableSignal && en.prior > 0 && len(top) < pairsFrom {
+			top = append(top, en)
+		}
+	}
+	type pairJob struct{ a, b entry }
+	var jobs []pairJob
+	seen := map[string]bool{}
+	addPair := func(a, b entry) {
+		ida, idb := a.cands[0].ID, b.cands[0].ID
+		if ida == idb || seen[ida+"+"+idb] || seen[idb+"+"+ida] {
+			return
+		}
+		seen[ida+"+"+idb] = true
+		jobs = append(jobs, pairJob{a, b})
+	}
+	for i := range top {
+		for j := i + 1; j < len(top); j++ {
+			addPair(top[i], top[j])
+		}
+	}
+	for _, en := range ranked {
+		if en.cands[0].Source != "" && slices.Contains(e.ctx.Declared, en.cands[0].Source) {
+			for _, t := range top {
+				if t.cands[0].Knob.Kind != rules.KnobSource {
+					addPair(en, t)
+				}
+			}
+		}
+	}
+	pairScores := make([]*scored, len(jobs))
+	parallel(len(jobs), opt.Workers, st.Site, func(i int, w *worker) {
+		if ctx.Err() != nil {
+			return
+		}
+		a, b := jobs[i].a, jobs[i].b
+		ka, _ := e.compile(a.cands[0])
+		kbb, _ := e.compile(b.cands[0])
+		ka[0].ax = reaxis(ka[0].ax, a.cands[0].Magnitude)
+		kbb[0].ax = reaxis(kbb[0].ax, b.cands[0].Magnitude)
+		knobs := []*knob{ka[0], kbb[0]}
+		sort.SliceStable(knobs, func(x, y int) bool { return knobOrder[knobs[x].kind] < knobOrder[knobs[y].kind] })
+		pairScores[i] = e.evaluate(w, a.cands[0].ID+"+"+b.cands[0].ID, knobs)
+		prog.add(1)
+	})
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	for i, j := range jobs {
+		s := pairScores[i]
+		cands := []*rules.Candidate{s.knobs[0].cand, s.knobs[1].cand}
+		adj := append(slices.Clone(j.a.adj), j.b.adj...)
+		entries = append(entries, entry{s: s, prior: set.PairPrior * j.a.prior * j.b.prior, adj: adj, cands: cands, isPair: true})
+	}
+
+	// Posteriors: "none" holds NoneShare of the prior, the rest is shared
+	// in proportion to the context-adjusted weights.
+	var weightSum float64
+	for _, en := range entries[1:] {
+		weightSum += en.prior
+	}
+	for i := range entries {
+		if i == 0 {
+			entries[i].prior = set.NoneShare
+		} else if weightSum > 0 {
+			entries[i].prior = (1 - set.NoneShare) * entries[i].prior / weightSum
+		}
+	}
+	priorSum := 1.0
+	logPost := make([]float64, len(entries))
+	for i, en := range entries {
+		logPost[i] = en.s.logZ + math.Log(en.prior/priorSum)
+	}
+	lz := logSumExp(logPost)
+	hyps := make([]Hypothesis, len(entries))
+	for i, en := range entries {
+		h := Hypothesis{
+			ID:          en.s.id,
+			LogEvidence: en.s.logZ,
+			PriorProb:   en.prior / priorSum,
+			Posterior:   math.Exp(logPost[i] - lz),
+			Adjustments: en.adj,
+			Pair:        en.isPair,
+			MaxSignal:   en.s.signal,
+		}
+		var labels, mechs []string
+		for _, c := range en.cands {
+			labels = append(labels, c.Label)
+			mechs = append(mechs, c.Mechanism)
+			h.Refs = append(h.Refs, c.Refs...)
+			h.Tests = append(h.Tests, c.Tests...)
+		}
+		h.Label = strings.Join(labels, " + ")
+		h.Mechanism = strings.Join(mechs, "; ")
+		h.Refs = uniq(h.Refs)
+		h.Tests = uniq(h.Tests)
+		m := en.s.moments()
+		h.Predicted = map[string]Moments{}
+		for o, ob := range e.obs {
+			h.Predicted[ob.Name] = m[o]
+		}
+		h.Fit = en.s.fit(e, m)
+		if en.s.id != rules.None {
+			h.Magnitudes = en.s.magnitudes()
+			h.Indistinguishable = en.s.signal < indistinguishableSignal
+		}
+		hyps[i] = h
+	}
+	// Candidates indistinguishable from none are counted with it.
+	for i := range hyps {
+		if hyps[i].Indistinguishable {
+			hyps[0].Posterior += hyps[i].Posterior
+			hyps[i].Posterior = 0
+		}
+	}
+	order := make([]int, len(hyps))
+	for i := range order {
+		order[i] = i
+	}
+	sort.SliceStable(order, func(a, b int) bool {
+		ha, hb := hyps[order[a]], hyps[order[b]]
+		if ha.Posterior != hb.Posterior {
+			return ha.Posterior > hb.Posterior
+		}
+		if ha.Indistinguishable != hb.Indistinguishable {
+			return !ha.Indistinguishable
+		}
+		return ha.ID < hb.ID
+	})
+	sortedEntries := make([]entry, len(order))
+	for i, k := range order {
+		cr.Hypotheses = append(cr.Hypotheses, hyps[k])
+		sortedEntries[i] = entries[k]
+	}
+	if top := cr.Hypotheses[0]; top.Fit.P < noFitP {
+		cr.NoFit = true
+		e.warnf("no candidate reproduces the observed shifts: the best, %s, fails its fit check (χ² = %.1f on %d observables, p = %.2g). The cause may be a change nlens does not model, a site model unlike this site, or an error in the data; the ranking below is not evidence for any of them", top.ID, top.Fit.Chi2, top.Fit.DOF, top.Fit.P)
+	}
+
+	// Next measurements and paths under the leading hypotheses.
+	var leading []int
+	var mass float64
+	for i, h := range cr.Hypotheses {
+		if len(leading) >= maxLeading || (mass >= leadingMass && len(leading) >= 2) {
+			break
+		}
+		if h.Posterior <= 0 {
+			continue
+		}
+		leading = append(leading, i)
+		mass += h.Posterior
+	}
+	for _, i := range leading {
+		cr.Leading = append(cr.Leading, cr.Hypotheses[i].ID)
+	}
+	if err := e.nextMeasurements(ctx, cr, sortedEntries, leading, index, prog); err != nil {
+		return nil, err
+	}
+	cr.Paths = e.paths(cr, sortedEntries, leading)
+	cr.Warnings = e.warnings
+	prog.add(4)
+	return cr, nil
+}
+
+// reaxis returns the axis a knob uses inside a pair: a declared addition
+// stays fixed; otherwise the coarser pair grid.
+func reaxis(a axis, m rules.Magnitude) axis {
+	if a.fixed {
+		return a
+	}
+	return newAxis(m, coarse2, fine2)
+}
+
+func uniq(s []string) []string {
+	var out []string
+	for _, v := range s {
+		if !slices.Contains(out, v) {
+			out = append(out, v)
+		}
+	}
+	return out
+}

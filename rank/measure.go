@@ -1,0 +1,202 @@
+package rank
+
+import (
+	"context"
+	"math"
+	"slices"
+	"sort"
+
+	"nlens/forward"
+	"nlens/knowledge"
+	"nlens/rules"
+)
+
+// catalogueItem is a measurement bound to the site.
+type catalogueItem struct {
+	m   knowledge.Measurement
+	obs forward.Observable
+}
+
+// nextMeasurements scores every catalogue measurement not yet made.
+func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, entries []entry, leading []int, index uint64, prog *progress) error {
+	if len(leading) < 2 {
+		return nil
+	}
+	var items []catalogueItem
+	for _, m := range e.kb.Measurements {
+		o, err := e.site.Observable(m.Observable)
+		if err != nil || e.alreadyObserved(o) {
+			continue
+		}
+		items = append(items, catalogueItem{m, o})
+	}
+	if len(items) == 0 {
+		return nil
+	}
+	reps := e.replicates()
+	cr.ReplicatesAssumed = reps
+	// Baseline values of every catalogue observable in every draw.
+	baseVals := make([][]float64, len(e.draws))
+	for d := range e.draws {
+		baseVals[d] = make([]float64, len(items))
+		for i, it := range items {
+			baseVals[d][i] = it.obs.Value(&e.base[d], &e.draws[d].params)
+		}
+	}
+	// Posterior samples of each leading hypothesis, predicted for every item.
+	preds := make([][][]float64, len(leading)) // [hyp][item][sample]
+	parallel(len(leading), e.opt.Workers, e.site, func(k int, w *worker) {
+		if ctx.Err() != nil {
+			return
+		}
+		s := entries[leading[k]].s
+		preds[k] = make([][]float64, len(items))
+		if s.id == rules.None {
+			for i := range items {
+				preds[k][i] = make([]float64, samplesPerHypothesis)
+			}
+			return
+		}
+		rng := newRand(e.opt.Seed, index, 1000+uint64(k))
+		theta := make([]float64, len(s.knobs))
+		for _, fd := range s.sample(samplesPerHypothesis, rng) {
+			theta = s.fineTheta(fd[0], theta)
+			d := fd[1]
+			ok := e.run(w, d, s.knobs, theta, true) == nil
+			for i, it := range items {
+				v := math.NaN()
+				if ok {
+					v = it.obs.Shift(baseVals[d][i], it.obs.Value(&w.x, &w.p))
+				}
+				if !math.IsNaN(v) && !math.IsInf(v, 0) {
+					preds[k][i] = append(preds[k][i], v)
+				}
+			}
+		}
+	})
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	p := make([]float64, len(leading))
+	for k, i := range leading {
+		p[k] = cr.Hypotheses[i].Posterior
+	}
+	for i, it := range items {
+		noise := math.Sqrt(2 * (it.m.AnalyticalSD*it.m.AnalyticalSD + it.m.FieldSD*it.m.FieldSD) / float64(reps))
+		samples := make([][]float64, len(leading))
+		usable := true
+		for k := range leading {
+			samples[k] = preds[k][i]
+			usable = usable && len(samples[k]) > 0
+		}
+		if !usable {
+			continue
+		}
+		meas := Measurement{
+			ID: it.m.ID, Label: it.m.Label, Observable: it.m.Observable, Unit: it.m.Unit,
+			Cost: it.m.Cost, Method: it.m.Method, NoiseSD: noise,
+			Bits:      InformationGain(p, samples, noise),
+			Predicted: map[string]Moments{},
+		}
+		for k, hi := range leading {
+			mean, sd := meanSD(samples[k])
+			meas.Predicted[cr.Hypotheses[hi].ID] = Moments{Mean: mean, SD: math.Hypot(sd, noise)}
+		}
+		cr.Measurements = append(cr.Measurements, meas)
+	}
+	sort.SliceStable(cr.Measurements, func(a, b int) bool {
+		ma, mb := cr.Measurements[a], cr.Measurements[b]
+		if ma.Bits != mb.Bits {
+			return ma.Bits > mb.Bits
+		}
+		if ma.Cost != mb.Cost {
+			return ma.Cost < mb.Cost
+		}
+		return ma.ID < mb.ID
+	})
+	return nil
+}
+
+// alreadyObserved reports whether an observed observable measures the same
+// quantity (soil-nitrate and leachate-nitrate are both the nitrate pool).
+func (e *engine) alreadyObserved(o forward.Observable) bool {
+	return slices.ContainsFunc(e.obs, func(x forward.Observable) bool { return x.Same(o) })
+}
+
+// replicates is the typical replicate count of the study's groups (median
+// of the smaller n of each observed pair), used for a new measurement.
+func (e *engine) replicates() int {
+	var ns []int
+	for _, o := range e.cmp.Observed {
+		ns = append(ns, min(o.Control.N, o.Treatment.N))
+	}
+	if len(ns) == 0 {
+		return defaultReplicates
+	}
+	slices.Sort(ns)
+	return ns[len(ns)/2]
+}
+
+func meanSD(v []float64) (float64, float64) {
+	var m, s float64
+	for _, x := range v {
+		m += x
+	}
+	m /= float64(len(v))
+	for _, x := range v {
+		s += (x - m) * (x - m)
+	}
+	return m, math.Sqrt(s / float64(len(v)))
+}
+
+// pathPoints is the number of times in a predicted trajectory.
+const pathPoints = 41
+
+// paths predicts how the observed observables move over time under each
+// leading hypothesis at its best magnitudes on the nominal site.
+func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int) []Path {
+	w := newWorker(e.site)
+	var out []Path
+	for _, i := range leading {
+		s := entries[i].s
+		h := cr.Hypotheses[i]
+		if s.id == rules.None {
+			continue
+		}
+		theta := make([]float64, len(h.Magnitudes))
+		for a, m := range h.Magnitudes {
+			theta[a] = m.Best
+		}
+		if err := e.apply(w, 0, s.knobs, theta); err != nil {
+			continue
+		}
+		var times []float64
+		var err error
+		if e.cmp.Years != nil {
+			times, err = forward.EvenTimes(math.Max(2**e.cmp.Years, 2), pathPoints)
+		} else {
+			var horizon float64
+			horizon, err = w.model.SettlingTime(&w.p, &e.base[0], e.obs)
+			if err == nil {
+				times, err = forward.LogTimes(horizon, pathPoints)
+			}
+		}
+		if err != nil {
+			continue
+		}
+		states, err := w.model.Trajectory(&w.p, &e.base[0], times, true)
+		if err != nil {
+			continue
+		}
+		pth := Path{Hypothesis: s.id, Years: times, Shifts: map[string][]float64{}}
+		for o, ob := range e.obs {
+			vals := make([]float64, len(states))
+			for t := range states {
+				vals[t] = ob.Shift(e.baseVals[0][o], ob.Value(&states[t], &w.p))
+			}
+			pth.Shifts[ob.Name] = vals
+		}
+		out = append(out, pth)
+	}
+	return out
+}

@@ -1,0 +1,234 @@
+package report
+
+import (
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+
+	"nlens/rank"
+)
+
+// ExplainOptions adds what the renderers need beyond the result.
+type ExplainOptions struct {
+	// MaxHypotheses shown in tables (the JSON has all).
+	MaxHypotheses int
+	// MaxMeasurements shown in tables.
+	MaxMeasurements int
+}
+
+func (o ExplainOptions) withDefaults() ExplainOptions {
+	if o.MaxHypotheses <= 0 {
+		o.MaxHypotheses = 8
+	}
+	if o.MaxMeasurements <= 0 {
+		o.MaxMeasurements = 6
+	}
+	return o
+}
+
+// Table writes the terminal report of an explain run, readable on an
+// 80-column terminal.
+func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
+	opt = opt.withDefaults()
+	ew := &errWriter{w: w}
+	title := r.StudyTitle
+	if title == "" {
+		title = r.StudyFile
+	}
+	ew.printf("%s\nsite model: %s\n", title, r.SiteID)
+	for _, c := range r.Comparisons {
+		ew.printf("\n== %s (%s)\n\nObserved shifts (treatment − control)\n", c.Name, when(c.Years))
+		if err := observedTable(ew, c.Observed); err != nil {
+			return err
+		}
+		ew.printf("\nExplanations, most probable first\n")
+		var rows [][]string
+		for i, h := range c.Hypotheses {
+			if i >= opt.MaxHypotheses {
+				break
+			}
+			post := fmtProb(h.Posterior)
+			if h.Indistinguishable {
+				post = "= none"
+			}
+			rows = append(rows, []string{strconv.Itoa(i + 1), shortLabel(h), post, MagnitudeText(h), fmtP(h.Fit.P)})
+		}
+		if err := table(ew, []string{"#", "explanation", "posterior", "magnitude (90 % interval)", "fit p"}, "rlrlr", rows); err != nil {
+			return err
+		}
+		if n := len(c.Hypotheses) - opt.MaxHypotheses; n > 0 {
+			ew.printf("(%d more in --format json)\n", n)
+		}
+		lead := leadingIndex(c)
+		if len(lead) > 0 {
+			ew.printf("\nPredicted shifts under the leading explanations (mean ± sd)\n")
+			headers := []string{"observable", "observed"}
+			for _, i := range lead {
+				headers = append(headers, "#"+strconv.Itoa(i+1))
+			}
+			rows = rows[:0]
+			for _, o := range c.Observed {
+				dec := 2
+				if o.LogRatio {
+					dec = 3
+				}
+				row := []string{o.Observable, pm(o.Shift, o.SE, dec)}
+				for _, i := range lead {
+					m := c.Hypotheses[i].Predicted[o.Observable]
+					row = append(row, pm(m.Mean, m.SD, dec))
+				}
+				rows = append(rows, row)
+			}
+			if err := table(ew, headers, "l"+strings.Repeat("r", len(headers)-1), rows); err != nil {
+				return err
+			}
+		}
+		if len(c.Measurements) > 0 {
+			ew.printf("\nNext measurements (expected information about which explanation holds)\n")
+			rows = rows[:0]
+			for i, m := range c.Measurements {
+				if i >= opt.MaxMeasurements {
+					break
+				}
+				rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost)})
+			}
+			if err := table(ew, []string{"#", "measurement", "bits", "cost"}, "rlrl", rows); err != nil {
+				return err
+			}
+			ew.printf("\nPredicted shift of each under the leading explanations (mean ± sd with noise)\n")
+			headers := []string{"measurement"}
+			for _, i := range lead {
+				headers = append(headers, "#"+strconv.Itoa(i+1))
+			}
+			rows = rows[:0]
+			for i, m := range c.Measurements {
+				if i >= opt.MaxMeasurements {
+					break
+				}
+				dec := 1
+				if m.Unit == "log-ratio" {
+					dec = 2
+				}
+				row := []string{shortMeasurement(m)}
+				for _, hi := range lead {
+					p := m.Predicted[c.Hypotheses[hi].ID]
+					row = append(row, pm(p.Mean, p.SD, dec))
+				}
+				rows = append(rows, row)
+			}
+			if err := table(ew, headers, "l"+strings.Repeat("r", len(headers)-1), rows); err != nil {
+				return err
+			}
+			ew.printf("(shifts in ‰; pools and fluxes as ln ratio; %d replicates per group assumed)\n", c.ReplicatesAssumed)
+		}
+		for _, wm := range c.Warnings {
+			ew.printf("\nwarning: %s\n", wm)
+		}
+	}
+	return ew.err
+}
+
+// leadingIndex maps the comparison's leading ids to hypothesis indices.
+func leadingIndex(c rank.ComparisonResult) []int {
+	var out []int
+	for _, id := range c.Leading {
+		for i, h := range c.Hypotheses {
+			if h.ID == id {
+				out = append(out, i)
+			}
+		}
+	}
+	return out
+}
+
+// shortLabel names a hypothesis with its direction: "more nitrification".
+func shortLabel(h rank.Hypothesis) string {
+	if len(h.Magnitudes) == 0 {
+		return h.Label
+	}
+	var parts []string
+	for _, m := range h.Magnitudes {
+		parts = append(parts, directed(m))
+	}
+	return strings.Join(parts, " + ")
+}
+
+// Direction words are used when the posterior puts at least this much
+// probability on one side of no change.
+const directionSure = 0.8
+
+// directed puts a direction word before a candidate's name: "more" or
+// "less" when the posterior is clear about it, "changed" when both are
+// possible.
+func directed(m rank.Magnitude) string {
+	name := m.Candidate
+	more, less := "more "+name, "less "+name
+	switch {
+	case strings.HasPrefix(name, "source:"):
+		return "added " + strings.TrimPrefix(name, "source:")
+	case m.Unit == "share of uptake as nitrate":
+		more, less = "more NO3− uptake", "more NH4+ uptake"
+	}
+	switch {
+	case m.ProbMore >= directionSure:
+		return more
+	case m.ProbMore <= 1-directionSure:
+		return less
+	}
+	return name + " (more or less)"
+}
+
+// MagnitudeText prints a hypothesis's magnitudes compactly.
+func MagnitudeText(h rank.Hypothesis) string {
+	var parts []string
+	for _, m := range h.Magnitudes {
+		parts = append(parts, magnitude(m))
+	}
+	return strings.Join(parts, "; ")
+}
+
+func magnitude(m rank.Magnitude) string {
+	switch {
+	case m.Fixed:
+		return fmt.Sprintf("%s kg/ha/yr (declared)", num(m.Best))
+	case m.Unit == "× rate" || strings.HasPrefix(m.Unit, "×"):
+		return fmt.Sprintf("×%s (%s–%s)", sig2(m.Best), sig2(m.Low), sig2(m.High))
+	case m.Unit == "share of uptake as nitrate":
+		return fmt.Sprintf("%.2f NO3− (%.2f–%.2f)", m.Best, m.Low, m.High)
+	}
+	return fmt.Sprintf("%s kg/ha/yr (%s–%s)", sig2(m.Best), sig2(m.Low), sig2(m.High))
+}
+
+// sig2 prints two significant digits (three at or above 100).
+func sig2(v float64) string {
+	if v >= 100 {
+		return strconv.FormatFloat(v, 'f', 0, 64)
+	}
+	return strconv.FormatFloat(v, 'g', 2, 64)
+}
+
+func fmtProb(p float64) string {
+	switch {
+	case p >= 0.995:
+		return "> 0.99"
+	case p < 0.005:
+		return "< 0.01"
+	}
+	return strconv.FormatFloat(p, 'f', 2, 64)
+}
+
+func fmtP(p float64) string {
+	if p < 0.001 {
+		return "< 0.001"
+	}
+	return strconv.FormatFloat(p, 'f', 2, 64)
+}
+
+func pm(mean, sd float64, dec int) string {
+	return plusSigned(mean, dec) + "±" + signed(sd, dec)
+}
+
+func shortMeasurement(m rank.Measurement) string {
+	return m.ID
+}

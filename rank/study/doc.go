@@ -1,0 +1,13 @@
+// Package study reads a study file (DESIGN §6) and its optional per-sample
+// CSV into observed shifts with standard errors.
+//
+// A shift is treatment minus control: in ‰ for δ observables, and
+// ln(treatment/control) for pool sizes and fluxes. Its standard error is
+// Welch's, √(s_t²/n_t + s_c²/n_c) (on the log scale by the delta method,
+// s/mean in place of s), with Welch–Satterthwaite degrees of freedom. The
+// control group's absolute values are kept so that the ranking can weight
+// how well a site model reproduces them.
+//
+// Every problem is an error naming the file, the 1-based line and the
+// field; nothing is skipped silently.
+package study
