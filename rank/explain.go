@@ -72,7 +72,14 @@ func Explain(ctx context.Context, st *study.Study, kb *knowledge.Base, set *rule
 		opt.Workers = runtime.GOMAXPROCS(0)
 	}
 	res := &Result{Version: opt.Version, Seed: opt.Seed, Draws: opt.Draws, ModelError: opt.ModelError,
-		StudyTitle: st.Title, StudyFile: st.File, SiteRef: st.SiteRef, SiteID: st.Site.ID}
+		StudyTitle: st.Title, StudyFile: st.File, SiteRef: st.SiteRef, SiteID: st.Site.ID, SiteDescription: st.Site.Description,
+		Method: Method{
+			Draws: opt.Draws, ModelErrorPermil: opt.ModelError, ModelErrorLog: modelErrorLog,
+			LevelSDPermil: levelSDPermil, LevelSDLog: levelSDLog,
+			CoarseNodes: coarse1, FinePoints: fine1, PairCoarseNodes: coarse2, PairFinePoints: fine2,
+			PairsFrom: pairsFrom, NoneShare: set.NoneShare, PairPrior: set.PairPrior,
+			SamplesPerLeading: samplesPerHypothesis, HermiteNodes: hermiteNodes,
+		}}
 	prog := &progress{f: opt.Progress, total: len(st.Comparisons) * (len(set.Candidates) + pairsFrom*(pairsFrom-1)/2 + 4)}
 	for i := range st.Comparisons {
 		if err := ctx.Err(); err != nil {

@@ -15,7 +15,28 @@ type Result struct {
 	StudyFile   string
 	SiteRef     string
 	SiteID      string
-	Comparisons []ComparisonResult
+	// SiteDescription is the site model's one-line description.
+	SiteDescription string
+	Method          Method
+	Comparisons     []ComparisonResult
+}
+
+// Method records the settings a reader needs to reproduce a run.
+type Method struct {
+	Draws             int
+	ModelErrorPermil  float64
+	ModelErrorLog     float64
+	LevelSDPermil     float64
+	LevelSDLog        float64
+	CoarseNodes       int
+	FinePoints        int
+	PairCoarseNodes   int
+	PairFinePoints    int
+	PairsFrom         int
+	NoneShare         float64
+	PairPrior         float64
+	SamplesPerLeading int
+	HermiteNodes      int
 }
 
 // ComparisonResult ranks the explanations of one comparison.
