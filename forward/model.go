@@ -4,7 +4,7 @@ import (
 	"fmt"
 	"math"
 
-	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/blas/blas64"
 )
 
 // MaxCondition is the largest condition number of a steady-state system
@@ -47,17 +47,19 @@ func (x *State) CopyFrom(y *State) {
 }
 
 // Model evaluates one site. It keeps workspaces between calls, so a Model
-// must not be used by two goroutines at once; make one per worker.
+// must not be used by two goroutines at once; make one per worker. Calls
+// allocate nothing once the workspaces exist.
 type Model struct {
 	Site    *Site
 	n       int
 	nitrate int
-	// workspaces
-	a        *mat.Dense // n×n
-	lu       mat.LU
-	rhs, sol *mat.VecDense
-	aug, exp mat.Dense // augmented matrix and its exponential
-	z0       []float64
+	lu      *luSolver
+	// exponentials: one isotope's augmented system (n+1), or the coupled
+	// system with nitrate oxygen (2n+3); e1/e2 hold the last results.
+	expN, expO   *expWork
+	augN, augO   blas64.General
+	e14, e15, eO blas64.General
+	z            []float64
 }
 
 // NewModel prepares a model of the site.
@@ -67,9 +69,12 @@ func NewModel(s *Site) *Model {
 		Site:    s,
 		n:       n,
 		nitrate: s.PoolIndex("nitrate"),
-		a:       mat.NewDense(n, n, nil),
-		rhs:     mat.NewVecDense(n, nil),
-		sol:     mat.NewVecDense(n, nil),
+		lu:      newLUSolver(n),
+		expN:    newExpWork(n + 1),
+		augN:    newGeneral(n+1, n+1),
+		e14:     newGeneral(n+1, n+1),
+		e15:     newGeneral(n+1, n+1),
+		z:       make([]float64, 2*n+2),
 	}
 }
 
@@ -87,51 +92,61 @@ func inputSplit(f, r float64) (light, heavy float64) {
 	return f / (1 + r), f * r / (1 + r)
 }
 
-// fillN writes K (n×n) and b (n) of one N isotope into a and rhs.
-func (m *Model) fillN(p *Params, iso int, a *mat.Dense, b []float64) {
-	a.Zero()
-	clear(b)
+// fillN writes K·scale into the top-left n×n block of a (row stride
+// stride) and b·scale into column bcol of the same rows (when bcol ≥ 0) or
+// into b (when b is not nil), for one N isotope. The block must be zero.
+func (m *Model) fillN(p *Params, iso int, a []float64, stride int, scale float64, bcol int, b []float64) {
 	for j, t := range m.Site.Transfers {
-		k := kIso(p, j, iso)
+		k := kIso(p, j, iso) * scale
 		if k == 0 {
 			continue
 		}
-		a.Set(t.From, t.From, a.At(t.From, t.From)-k)
+		a[t.From*stride+t.From] -= k
 		if t.To != Out {
-			a.Set(t.To, t.From, a.At(t.To, t.From)+k)
+			a[t.To*stride+t.From] += k
 		}
 	}
 	for _, in := range p.Inputs {
 		l, h := inputSplit(in.RateKgPerHaYr, Ratio(in.D15N, RAir))
-		if iso == 0 {
-			b[in.To] += l
-		} else {
-			b[in.To] += h
+		v := l
+		if iso == 1 {
+			v = h
+		}
+		if bcol >= 0 {
+			a[in.To*stride+bcol] += v * scale
+		}
+		if b != nil {
+			b[in.To] += v * scale
 		}
 	}
 }
 
 // Steady writes the steady state of the system with parameters p into dst;
-// nitrate oxygen is computed when withO is set.
+// nitrate oxygen is computed when withO is set. The condition number is
+// checked on the 14N system: the 15N system has the same structure with
+// every rate constant divided by its α (1.00–1.05), so its conditioning
+// differs by at most that factor.
 func (m *Model) Steady(p *Params, withO bool, dst *State) error {
 	n := m.n
 	dst.N14 = resize(dst.N14, n)
 	dst.N15 = resize(dst.N15, n)
 	for iso := range 2 {
-		m.fillN(p, iso, m.a, m.rhs.RawVector().Data)
-		m.lu.Factorize(m.a)
-		if c := m.lu.Cond(); !(c <= MaxCondition) {
+		clear(m.lu.a.Data)
+		clear(m.lu.b.Data)
+		m.fillN(p, iso, m.lu.a.Data, n, 1, -1, m.lu.b.Data)
+		c := m.lu.factor(iso == 0)
+		if math.IsInf(c, 1) || c > MaxCondition {
 			return &ConditionError{Site: m.Site.ID, System: [2]string{"14N", "15N"}[iso], Cond: c}
 		}
-		m.rhs.ScaleVec(-1, m.rhs)
-		if err := m.lu.SolveVecTo(m.sol, false, m.rhs); err != nil {
-			return fmt.Errorf("site %q steady state: %w", m.Site.ID, err)
+		for i := range m.lu.b.Data {
+			m.lu.b.Data[i] = -m.lu.b.Data[i]
 		}
+		m.lu.solve()
 		out := dst.N14
 		if iso == 1 {
 			out = dst.N15
 		}
-		copy(out, m.sol.RawVector().Data)
+		copy(out, m.lu.b.Data)
 	}
 	dst.HasO = withO
 	dst.O16, dst.O18 = 0, 0
@@ -180,9 +195,9 @@ func resize(s []float64, n int) []float64 {
 
 // Advance writes into dst the state t years after x0 under parameters p,
 // exactly: z(t) = exp(A·t)·z0 + ∫exp(A·s)ds·c, read from the exponential of
-// the augmented matrix [[A·t, c·t], [0, 0]] (DESIGN §3). With withO the
-// nitrate oxygen pair is advanced together with the N isotopes (x0 must
-// then carry oxygen).
+// the augmented matrix [[A·t, c·t], [0, 0]] (DESIGN §3). Without oxygen the
+// 14N and 15N systems are advanced separately; with withO the nitrate
+// oxygen pair is advanced together with them (x0 must then carry oxygen).
 func (m *Model) Advance(p *Params, x0 *State, t float64, withO bool, dst *State) error {
 	if t < 0 || math.IsNaN(t) || math.IsInf(t, 0) {
 		return fmt.Errorf("time must be a finite number of years ≥ 0, got %g", t)
@@ -195,95 +210,94 @@ func (m *Model) Advance(p *Params, x0 *State, t float64, withO bool, dst *State)
 	return nil
 }
 
-// size of the state vector: 14N and 15N of each pool, then 16O and 18O.
-func (m *Model) dim(withO bool) int {
-	if withO {
-		return 2*m.n + 2
-	}
-	return 2 * m.n
-}
-
-// fillAugmented writes [[A·t, c·t], [0, 0]] for the whole state into m.aug.
-func (m *Model) fillAugmented(p *Params, t float64, withO bool) {
-	n, d := m.n, m.dim(withO)
-	if r, _ := m.aug.Dims(); r != d+1 {
-		m.aug = *mat.NewDense(d+1, d+1, nil)
-		m.exp = *mat.NewDense(d+1, d+1, nil)
-	} else {
-		m.aug.Zero()
-	}
-	a := &m.aug
-	for iso := range 2 {
-		off := iso * n
-		for j, tr := range m.Site.Transfers {
-			k := kIso(p, j, iso) * t
-			if k == 0 {
-				continue
-			}
-			f := off + tr.From
-			a.Set(f, f, a.At(f, f)-k)
-			if tr.To != Out {
-				a.Set(off+tr.To, f, a.At(off+tr.To, f)+k)
-			}
-		}
-		for _, in := range p.Inputs {
-			l, h := inputSplit(in.RateKgPerHaYr, Ratio(in.D15N, RAir))
-			v := l
-			if iso == 1 {
-				v = h
-			}
-			a.Set(off+in.To, d, a.At(off+in.To, d)+v*t)
-		}
-	}
+// expAugmented computes the exponentials of the augmented systems for a
+// step of t years into m.e14 and m.e15 (or m.eO with oxygen).
+func (m *Model) expAugmented(p *Params, t float64, withO bool) {
+	n := m.n
 	if !withO {
+		for iso := range 2 {
+			e := m.e14
+			if iso == 1 {
+				e = m.e15
+			}
+			clear(m.augN.Data)
+			m.fillN(p, iso, m.augN.Data, n+1, t, n, nil)
+			m.expN.exp(e, m.augN)
+		}
 		return
 	}
+	d := 2*n + 2
+	if m.expO == nil {
+		m.expO = newExpWork(d + 1)
+		m.augO = newGeneral(d+1, d+1)
+		m.eO = newGeneral(d+1, d+1)
+	}
+	a := m.augO.Data
+	clear(a)
+	st := d + 1
+	m.fillN(p, 0, a, st, t, d, nil)
+	// The 15N block sits at offset (n, n) and its inputs in column d.
+	m.fillN(p, 1, a[n*st+n:], st, t, d-n, nil)
 	q, o16, o18 := m.nitrate, 2*n, 2*n+1
 	ln, hn := inputSplit(3, Ratio(p.NitrificationD18O, RVSMOW))
 	for j, tr := range m.Site.Transfers {
 		if tr.To == q {
 			k14, k15 := kIso(p, j, 0)*t, kIso(p, j, 1)*t
-			a.Set(o16, tr.From, a.At(o16, tr.From)+ln*k14)
-			a.Set(o16, n+tr.From, a.At(o16, n+tr.From)+ln*k15)
-			a.Set(o18, tr.From, a.At(o18, tr.From)+hn*k14)
-			a.Set(o18, n+tr.From, a.At(o18, n+tr.From)+hn*k15)
+			a[o16*st+tr.From] += ln * k14
+			a[o16*st+n+tr.From] += ln * k15
+			a[o18*st+tr.From] += hn * k14
+			a[o18*st+n+tr.From] += hn * k15
 		}
 		if tr.From == q {
-			a.Set(o16, o16, a.At(o16, o16)-p.K[j]*t)
-			a.Set(o18, o18, a.At(o18, o18)-p.K[j]/Alpha(p.Eps18[j])*t)
+			a[o16*st+o16] -= p.K[j] * t
+			a[o18*st+o18] -= p.K[j] / Alpha(p.Eps18[j]) * t
 		}
 	}
 	for _, in := range p.Inputs {
 		if in.To == q {
 			l, h := inputSplit(3*in.RateKgPerHaYr, Ratio(in.D18O, RVSMOW))
-			a.Set(o16, d, a.At(o16, d)+l*t)
-			a.Set(o18, d, a.At(o18, d)+h*t)
+			a[o16*st+d] += l * t
+			a[o18*st+d] += h * t
 		}
 	}
+	m.expO.exp(m.eO, m.augO)
 }
 
-// expAugmented leaves exp([[A·t, c·t], [0, 0]]) in m.exp.
-func (m *Model) expAugmented(p *Params, t float64, withO bool) {
-	m.fillAugmented(p, t, withO)
-	m.exp.Exp(&m.aug)
-}
-
-// applyExp computes dst = E·[z0; 1] with E = m.exp.
+// applyExp computes dst from x0 with the exponentials of expAugmented.
 func (m *Model) applyExp(x0 *State, withO bool, dst *State) {
-	n, d := m.n, m.dim(withO)
-	z := resize(m.z0, d)
-	m.z0 = z
-	copy(z, x0.N14)
-	copy(z[n:], x0.N15)
-	if withO {
-		z[2*n], z[2*n+1] = x0.O16, x0.O18
-	}
+	n := m.n
 	dst.N14 = resize(dst.N14, n)
 	dst.N15 = resize(dst.N15, n)
+	if !withO {
+		for iso := range 2 {
+			e, src, out := m.e14, x0.N14, dst.N14
+			if iso == 1 {
+				e, src, out = m.e15, x0.N15, dst.N15
+			}
+			z := m.z[:n]
+			copy(z, src)
+			for i := range n {
+				row := e.Data[i*(n+1):]
+				v := row[n]
+				for j := range n {
+					v += row[j] * z[j]
+				}
+				out[i] = v
+			}
+		}
+		dst.HasO, dst.O16, dst.O18 = false, 0, 0
+		return
+	}
+	d := 2*n + 2
+	z := m.z[:d]
+	copy(z, x0.N14)
+	copy(z[n:], x0.N15)
+	z[2*n], z[2*n+1] = x0.O16, x0.O18
 	for i := range d {
-		v := m.exp.At(i, d)
+		row := m.eO.Data[i*(d+1):]
+		v := row[d]
 		for j := range d {
-			v += m.exp.At(i, j) * z[j]
+			v += row[j] * z[j]
 		}
 		switch {
 		case i < n:
@@ -296,10 +310,7 @@ func (m *Model) applyExp(x0 *State, withO bool, dst *State) {
 			dst.O18 = v
 		}
 	}
-	dst.HasO = withO
-	if !withO {
-		dst.O16, dst.O18 = 0, 0
-	}
+	dst.HasO = true
 }
 
 // Trajectory returns the states at the given times (years after x0, sorted

@@ -276,9 +276,10 @@ func TestStiffExponentialAgainstEigen(t *testing.T) {
 		got[0], got[1] = x.N14, x.N15
 		var want [2][]float64
 		for iso := range 2 {
-			k := mat.NewDense(n, n, nil)
+			raw := make([]float64, n*n)
 			b := make([]float64, n)
-			m.fillN(&p, iso, k, b)
+			m.fillN(&p, iso, raw, n, 1, -1, b)
+			k := mat.NewDense(n, n, raw)
 			start := x0.N14
 			if iso == 1 {
 				start = x0.N15

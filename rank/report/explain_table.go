@@ -54,7 +54,7 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 			}
 			rows = append(rows, []string{strconv.Itoa(i + 1), shortLabel(h), post, MagnitudeText(h), fmtP(h.Fit.P)})
 		}
-		if err := table(ew, []string{"#", "explanation", "posterior", "magnitude (90 % interval)", "fit p"}, "rlrlr", rows); err != nil {
+		if err := wrappedTable(ew, []string{"#", "explanation", "posterior", "magnitude (90 %)", "fit p"}, "rlrlr", rows, []int{0, 30, 0, 24, 0}); err != nil {
 			return err
 		}
 		if n := len(c.Hypotheses) - opt.MaxHypotheses; n > 0 {
@@ -69,9 +69,9 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 			}
 			rows = rows[:0]
 			for _, o := range c.Observed {
-				dec := 2
+				dec := 1
 				if o.LogRatio {
-					dec = 3
+					dec = 2
 				}
 				row := []string{o.Observable, pm(o.Shift, o.SE, dec)}
 				for _, i := range lead {
@@ -176,7 +176,7 @@ func directed(m rank.Magnitude) string {
 	case m.ProbMore <= 1-directionSure:
 		return less
 	}
-	return name + " (more or less)"
+	return "changed " + name
 }
 
 // MagnitudeText prints a hypothesis's magnitudes compactly.

@@ -26,7 +26,13 @@ const (
 // header; align gives 'l' or 'r' per column. It renders into a buffer first
 // because tablewriter swallows write errors (GO-NOTES §1).
 func table(w io.Writer, headers []string, align string, rows [][]string) error {
-	return renderTable(w, headers, align, rows, false)
+	return renderTable(w, headers, align, rows, false, nil)
+}
+
+// wrappedTable is table with a maximum width per column (0: none); longer
+// cells wrap onto continuation lines at word boundaries.
+func wrappedTable(w io.Writer, headers []string, align string, rows [][]string, maxWidths []int) error {
+	return renderTable(w, headers, align, rows, false, maxWidths)
 }
 
 // markdownTable renders a GitHub-flavoured Markdown table, escaping |.
@@ -42,10 +48,10 @@ func markdownTable(w io.Writer, headers []string, align string, rows [][]string)
 	for i, r := range rows {
 		escaped[i] = esc(r)
 	}
-	return renderTable(w, esc(headers), align, escaped, true)
+	return renderTable(w, esc(headers), align, escaped, true, nil)
 }
 
-func renderTable(w io.Writer, headers []string, align string, rows [][]string, md bool) error {
+func renderTable(w io.Writer, headers []string, align string, rows [][]string, md bool, maxWidths []int) error {
 	cols := make([]tw.Align, len(headers))
 	for i := range cols {
 		cols[i] = tw.AlignLeft
@@ -68,13 +74,28 @@ func renderTable(w io.Writer, headers []string, align string, rows [][]string, m
 		})
 	}
 	var buf bytes.Buffer
-	t := tablewriter.NewTable(&buf,
+	opts := []tablewriter.Option{
 		tablewriter.WithRenderer(r),
 		tablewriter.WithHeaderAutoFormat(tw.Off),
 		tablewriter.WithRowAlignmentConfig(ca),
 		tablewriter.WithHeaderAlignmentConfig(ca),
 		tablewriter.WithRowAutoWrap(tw.WrapNone),
-	)
+	}
+	if len(maxWidths) > 0 {
+		widths := tw.NewMapper[int, int]()
+		for i, v := range maxWidths {
+			if v > 0 {
+				widths[i] = v
+			}
+		}
+		opts = append(opts, tablewriter.WithRowAutoWrap(tw.WrapNormal), tablewriter.WithRowConfig(tw.CellConfig{
+			Formatting:   tw.CellFormatting{AutoWrap: tw.WrapNormal},
+			Padding:      tw.CellPadding{Global: tw.PaddingDefault},
+			Alignment:    ca,
+			ColMaxWidths: tw.CellWidth{PerColumn: widths},
+		}))
+	}
+	t := tablewriter.NewTable(&buf, opts...)
 	t.Header(toAny(headers)...)
 	for _, row := range rows {
 		if err := t.Append(row); err != nil {
