@@ -2,10 +2,10 @@ package rank
 
 import (
 	"context"
-	"os"
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"os"
 	"sort"
 	"strings"
 	"testing"
@@ -20,14 +20,14 @@ import (
 
 // truth is a known change used to generate synthetic observations.
 type truth struct {
-	name    string
-	site    string
-	years   *float64
-	change  forward.Change
-	share   float64  // if > 0, the nitrate share of uptake is set to it
-	want    string   // hypothesis id that generated the data
-	obs     []string // observables "measured"
-	n       int      // replicates per group
+	name   string
+	site   string
+	years  *float64
+	change forward.Change
+	share  float64  // if > 0, the nitrate share of uptake is set to it
+	want   string   // hypothesis id that generated the data
+	obs    []string // observables "measured"
+	n      int      // replicates per group
 	// noiseFree: group means are the model's values exactly (the SEs stay
 	// those of n replicates), to test what the design can identify.
 	noiseFree bool

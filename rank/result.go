@@ -7,14 +7,14 @@ import (
 
 // Result is the outcome of explaining a study.
 type Result struct {
-	Version     string
-	Seed        uint64
-	Draws       int
-	ModelError  float64 // σ_model, ‰
-	StudyTitle  string
-	StudyFile   string
-	SiteRef     string
-	SiteID      string
+	Version    string
+	Seed       uint64
+	Draws      int
+	ModelError float64 // σ_model, ‰
+	StudyTitle string
+	StudyFile  string
+	SiteRef    string
+	SiteID     string
 	// SiteDescription is the site model's one-line description.
 	SiteDescription string
 	Method          Method
