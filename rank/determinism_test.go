@@ -1,0 +1,73 @@
+package rank
+
+import (
+	"context"
+	"reflect"
+	"testing"
+
+	"nlens/knowledge"
+	"nlens/rank/study"
+)
+
+// The same study and seed give identical results, whether the work runs on
+// one goroutine or several; a different seed changes the nuisance draws.
+func TestDeterminism(t *testing.T) {
+	t.Parallel()
+	kb := knowledge.MustDefault()
+	st, err := study.Load("../testdata/demo/study.yaml", kb, study.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	run := func(seed uint64, workers int) *Result {
+		r, err := Explain(context.Background(), st, kb, defaultSet(t), Options{Seed: seed, Draws: 12, Workers: workers})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return r
+	}
+	a, b, c := run(7, 1), run(7, 2), run(7, 2)
+	if !reflect.DeepEqual(a, b) || !reflect.DeepEqual(b, c) {
+		t.Error("the same seed gave different results (serial vs parallel or between runs)")
+	}
+	if d := run(8, 2); reflect.DeepEqual(a.Comparisons[0].Hypotheses, d.Comparisons[0].Hypotheses) {
+		t.Error("a different seed gave identical posteriors: the draws do not depend on the seed")
+	}
+}
+
+// Posteriors are probabilities: they sum to one over the hypotheses and
+// are sorted; magnitudes lie in their priors' ranges.
+func TestPosteriorsAreProbabilities(t *testing.T) {
+	t.Parallel()
+	kb := knowledge.MustDefault()
+	st, err := study.Load("../testdata/demo/study.yaml", kb, study.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := Explain(context.Background(), st, kb, defaultSet(t), Options{Seed: 1, Draws: 12})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var sum float64
+	hs := r.Comparisons[0].Hypotheses
+	for i, h := range hs {
+		sum += h.Posterior
+		if i > 0 && h.Posterior > hs[i-1].Posterior {
+			t.Errorf("hypotheses not sorted at %d", i)
+		}
+		for _, m := range h.Magnitudes {
+			c := defaultSet(t).Candidate(m.Candidate)
+			if !m.Fixed && (m.Best < c.Magnitude.Min || m.Best > c.Magnitude.Max || m.Low > m.High) {
+				t.Errorf("%s: magnitude %+v outside prior %g–%g", h.ID, m, c.Magnitude.Min, c.Magnitude.Max)
+			}
+		}
+	}
+	if sum < 1-1e-9 || sum > 1+1e-9 {
+		t.Errorf("posteriors sum to %.12f", sum)
+	}
+	ms := r.Comparisons[0].Measurements
+	for i := 1; i < len(ms); i++ {
+		if ms[i].Bits > ms[i-1].Bits {
+			t.Errorf("measurements not sorted by bits at %d", i)
+		}
+	}
+}
