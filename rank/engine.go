@@ -61,6 +61,48 @@ type engine struct {
 	base     []forward.State
 	baseVals [][]float64
 	warnings []string
+	// siteCertain is set when no site parameter is drawn (every ε fixed or
+	// fixed by knowledge, no rate spreads, no drawn input δ): all draws then
+	// share one baseline and only source candidates need more than draw 0.
+	siteCertain bool
+}
+
+// siteIsCertain reports whether the nuisance draws leave the site itself
+// unchanged.
+func (e *engine) siteIsCertain() bool {
+	s := e.site
+	for _, t := range s.Transfers {
+		eff, _ := e.kb.Effect(t.Process)
+		if t.Spread > 0 || (!t.EpsilonFixed && eff.RangePermil[1] > eff.RangePermil[0]) {
+			return false
+		}
+		if e.needO && t.From == s.PoolIndex("nitrate") && !t.Epsilon18Fixed && eff.D18ORatio != nil && eff.D18ORatioRange[1] > eff.D18ORatioRange[0] && t.Epsilon != 0 {
+			return false
+		}
+	}
+	for _, in := range s.Inputs {
+		if in.Source != "" && !in.D15NFixed {
+			return false
+		}
+		if e.needO && in.Source != "" && !in.D18OFixed && s.Pools[in.To] == "nitrate" {
+			return false
+		}
+	}
+	return !(e.needO && !s.NitrificationD18OFixed)
+}
+
+// drawsFor returns how many draws a hypothesis needs: all of them, or only
+// the nominal one when the site is certain and no knob draws a source δ.
+func (e *engine) drawsFor(knobs []*knob) int {
+	if !e.siteCertain {
+		return len(e.draws)
+	}
+	for _, k := range knobs {
+		if k.kind == rules.KnobSource {
+			return len(e.draws)
+		}
+	}
+	return 1
 }
 
 func (e *engine) warnf(format string, args ...any) {
@@ -89,10 +131,10 @@ func (e *engine) compile(c *rules.Candidate) ([]*knob, string) {
 		if !slices.ContainsFunc(k.procs, func(p string) bool { return hasProcess(s, p) }) {
 			return nil, fmt.Sprintf("the site has no %s transfer", strings.Join(k.procs, " or "))
 		}
-		k.ax = newAxis(c.Magnitude, coarse1, fine1)
+		k.ax = newAxis(c.Magnitude, nodesFor(c.Magnitude, false), fine1)
 		k.baseline = 1
 	case rules.KnobNitrateShare:
-		k.ax = newAxis(c.Magnitude, coarse1, fine1)
+		k.ax = newAxis(c.Magnitude, nodesFor(c.Magnitude, false), fine1)
 		p := s.Params()
 		k.baseline = p.NitrateShare(s)
 	case rules.KnobSource:
@@ -101,7 +143,7 @@ func (e *engine) compile(c *rules.Candidate) ([]*knob, string) {
 		if k.pool < 0 {
 			return nil, fmt.Sprintf("the site has no %s pool for this source", src.Pool)
 		}
-		k.ax = newAxis(c.Magnitude, coarse1, fine1)
+		k.ax = newAxis(c.Magnitude, nodesFor(c.Magnitude, false), fine1)
 		for _, a := range e.cmp.Additions {
 			if a.Source == c.Source {
 				k.ax = fixedAxis(a.RateKgPerHaYr, c.Magnitude.Unit)
@@ -233,6 +275,7 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 			bestMismatch, worstName, worstDiff = mismatch, name, diff
 		}
 	}
+	e.siteCertain = e.siteIsCertain()
 	e.w = drawWeights(logw)
 	e.logw = make([]float64, n)
 	for d, v := range e.w {

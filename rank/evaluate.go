@@ -19,7 +19,10 @@ type scored struct {
 	// pred[(f·nd + d)·no + o]: predicted shift at fine point f, draw d.
 	pred []float64
 	// logq[f·nd + d]: log posterior weight within the hypothesis.
-	logq   []float64
+	logq []float64
+	// logw are the log weights of the draws used (all draws, or only draw 0
+	// with weight 1 when the site is certain).
+	logw   []float64
 	logZ   float64 // log evidence
 	signal float64 // max over f of √Σ_o (E_d pred)²/var
 }
@@ -46,7 +49,11 @@ func (s *scored) fineTheta(f int, theta []float64) []float64 {
 // evaluate runs the forward model at the coarse nodes, carries predictions
 // to the fine grid, and computes the likelihood of every (fine point, draw).
 func (e *engine) evaluate(w *worker, id string, knobs []*knob) *scored {
-	s := &scored{id: id, knobs: knobs, nd: len(e.draws), no: len(e.obs)}
+	s := &scored{id: id, knobs: knobs, nd: e.drawsFor(knobs), no: len(e.obs)}
+	s.logw = e.logw
+	if s.nd == 1 {
+		s.logw = []float64{0}
+	}
 	for _, k := range knobs {
 		s.nc = append(s.nc, len(k.ax.nodes))
 		s.nf = append(s.nf, len(k.ax.fine))
@@ -124,15 +131,16 @@ func (s *scored) likelihood(e *engine) {
 		for d := range nd {
 			var ll float64
 			p := s.pred[(f*nd+d)*no:]
+			wd := math.Exp(s.logw[d])
 			for o := range no {
 				r := e.shift[o] - p[o]
 				ll -= 0.5 * r * r / e.variance[o]
-				mean[o] += e.w[d] * p[o]
+				mean[o] += wd * p[o]
 			}
 			if math.IsNaN(ll) {
 				ll = math.Inf(-1)
 			}
-			s.logq[f*nd+d] = e.logw[d] + logPrior + ll + norm
+			s.logq[f*nd+d] = s.logw[d] + logPrior + ll + norm
 		}
 		var sig float64
 		for o := range no {

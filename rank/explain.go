@@ -377,7 +377,7 @@ func reaxis(a axis, m rules.Magnitude) axis {
 	if a.fixed {
 		return a
 	}
-	return newAxis(m, coarse2, fine2)
+	return newAxis(m, nodesFor(m, true), fine2)
 }
 
 func uniq(s []string) []string {

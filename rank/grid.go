@@ -13,12 +13,33 @@ import (
 // predictions. A log-uniform prior over 0.1–10 spans 4.6 in ln θ: 13 nodes
 // are 0.38 apart and 121 fine points 0.04 apart, finer than the likelihood
 // width of a well-measured shift.
+//
+// The share of uptake taken as nitrate bends the predictions sharply near
+// its ends (one uptake route vanishes), so a uniform-prior axis gets more
+// nodes. TestSplineAccuracy holds the spline to 0.1 ‰ (singles) and 0.2 ‰
+// (pairs) of direct forward runs.
 const (
-	coarse1 = 13
-	fine1   = 121
-	coarse2 = 9
-	fine2   = 41
+	coarse1        = 11
+	fine1          = 121
+	coarse2        = 8
+	fine2          = 41
+	coarseUniform1 = 21
+	coarseUniform2 = 15
 )
+
+// nodesFor returns the coarse node count for a prior in a single (pair
+// false) or pair evaluation.
+func nodesFor(m rules.Magnitude, pair bool) int {
+	switch {
+	case m.Prior == rules.PriorUniform && pair:
+		return coarseUniform2
+	case m.Prior == rules.PriorUniform:
+		return coarseUniform1
+	case pair:
+		return coarse2
+	}
+	return coarse1
+}
 
 // axis is the quadrature of one magnitude prior.
 type axis struct {

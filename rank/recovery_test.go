@@ -121,6 +121,9 @@ func TestRecoveryScan(t *testing.T) {
 	A := []string{"foliage", "soil", "soil-nitrate"}
 	B := []string{"foliage", "soil", "soil-nitrate", "nitrate-d18o", "soil-ammonium"}
 	tdf, dry, bor := "temperate-deciduous-forest", "dryland-shrubland", "boreal-conifer-forest"
+	if f := os.Getenv("NLENS_SCAN_SITE"); f != "" {
+		tdf = f
+	}
 	cases := []truth{
 		{name: "none", site: tdf, want: "none"},
 		{name: "nitrif x3 5y", site: tdf, years: years(5), change: scale("nitrification", 3.0, "nitrifier-gas", 3.0), want: "nitrification"},
