@@ -30,8 +30,10 @@ func newDemoCmd(e *env) *cobra.Command {
 		Long: strings.TrimSpace(`
 demo runs nlens explain on an embedded example: an invented field
 experiment, with realistic numbers, made up for this demonstration. The same
-study is in testdata/demo/ of the source tree.`),
-		Example: "  nlens demo\n  nlens demo --format json",
+study is in testdata/demo/ of the source tree. It takes the flags of explain:
+--format text or markdown for the e-mail summary or the full report, and
+--out DIR to write the report with its references and figures.`),
+		Example: "  nlens demo\n  nlens demo --format text\n  nlens demo --out report/\n  nlens demo --format json",
 		Args:    cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, _ []string) error {
 			return wrapRun(func() error {
@@ -45,6 +47,9 @@ study is in testdata/demo/ of the source tree.`),
 				}
 				if opt.format == report.FormatTable {
 					fmt.Fprintf(e.stdout, "\nThis was the built-in demo (invented data). Your own study: nlens explain study.yaml\n")
+					if opt.out == "" {
+						fmt.Fprintf(e.stdout, "Full report (Markdown, BibTeX, figures): nlens demo --out report/\n")
+					}
 				}
 				return nil
 			})

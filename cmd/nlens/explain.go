@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -42,9 +43,15 @@ propagated, and ranks them by posterior probability. For the leading
 explanations it predicts every measurement not yet made and ranks them by
 the information they would give about which explanation holds.
 
-Formats: table (default, for a terminal), json (for scripts).`),
+Formats: table (default, for a terminal), text (a plain-text summary to
+paste into an e-mail), markdown (the full report with a discussion draft,
+cautions, methods and references) and json (for scripts). --out DIR writes
+the full report into DIR: report.md, result.json, references.bib and the
+figures as SVG and PNG; an existing non-empty DIR needs --force.`),
 		Example: strings.TrimSpace(`
   nlens explain study.yaml
+  nlens explain study.yaml --format text
+  nlens explain study.yaml --out report/
   nlens explain study.yaml --format json --seed 7
   nlens explain study.yaml --draws 200 --model-error 0.3
   nlens explain study.yaml --rules my-rules.yaml`),
@@ -60,7 +67,9 @@ Formats: table (default, for a terminal), json (for scripts).`),
 
 func addExplainFlags(cmd *cobra.Command, opt *explainOptions) {
 	f := cmd.Flags()
-	f.StringVar(&opt.format, "format", report.FormatTable, "table or json")
+	f.StringVar(&opt.format, "format", report.FormatTable, "table, text, markdown or json")
+	f.StringVar(&opt.out, "out", "", "also write the full report (Markdown, JSON, BibTeX, figures) into this directory")
+	f.BoolVar(&opt.force, "force", false, "with --out, replace the report files in a directory that is not empty")
 	f.Uint64Var(&opt.seed, "seed", rank.DefaultSeed, "random seed: the same seed gives the same output")
 	f.IntVar(&opt.draws, "draws", rank.DefaultDraws, "nuisance draws of isotope effects, source δ and rates")
 	f.Float64Var(&opt.modelError, "model-error", rank.DefaultModelError, "structural model error σ_model, ‰")
@@ -69,8 +78,16 @@ func addExplainFlags(cmd *cobra.Command, opt *explainOptions) {
 }
 
 func runExplain(ctx context.Context, e *env, opt explainOptions) error {
-	if err := checkFormat(opt.format, report.FormatTable, report.FormatJSON); err != nil {
+	if err := checkFormat(opt.format, report.ExplainFormats...); err != nil {
 		return err
+	}
+	if opt.force && opt.out == "" {
+		return badf("--force applies only with --out DIR")
+	}
+	if opt.out != "" {
+		if err := report.CheckOutDir(opt.out, opt.force); err != nil {
+			return badInput{err}
+		}
 	}
 	if opt.draws < 1 || opt.draws > 100000 {
 		return badf("--draws must be between 1 and 100000, got %d", opt.draws)
@@ -99,10 +116,22 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	if err != nil {
 		return err
 	}
-	if opt.format == report.FormatJSON {
-		return report.JSON(e.stdout, res)
+	if err := report.WriteExplain(e.stdout, res, e.kb, opt.format); err != nil {
+		return err
 	}
-	return report.Table(e.stdout, res, report.ExplainOptions{})
+	if opt.out == "" {
+		return nil
+	}
+	names, err := report.WriteBundle(opt.out, res, e.kb, report.BundleOptions{Force: opt.force})
+	var dirErr *report.OutDirError
+	if errors.As(err, &dirErr) {
+		return badInput{err}
+	}
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(e.stderr, "nlens: wrote %d files to %s: %s\n", len(names), opt.out, strings.Join(names, ", "))
+	return nil
 }
 
 func loadStudy(e *env, opt explainOptions) (*study.Study, error) {

@@ -11,13 +11,17 @@ import (
 
 // FullReference formats a reference in full for a reference list:
 // Authors (Year). Title. Journal Volume(Issue): Pages. doi:…
-func FullReference(r knowledge.Reference) string {
+func FullReference(r knowledge.Reference) string { return fullReference(r, "") }
+
+// fullReference is FullReference with a letter after the year ("2015a")
+// for a work whose author–year form another cited work shares.
+func fullReference(r knowledge.Reference, suffix string) string {
 	var b strings.Builder
 	b.WriteString(authorList(r.Authors))
 	if r.Year > 0 {
-		fmt.Fprintf(&b, " (%d)", r.Year)
+		fmt.Fprintf(&b, " (%d%s)", r.Year, suffix)
 	} else {
-		b.WriteString(" (n.d.)")
+		fmt.Fprintf(&b, " (n.d.%s)", suffix)
 	}
 	b.WriteString(". ")
 	b.WriteString(strings.TrimSuffix(r.Title, "."))
@@ -83,13 +87,46 @@ func BibTeX(w io.Writer, refs []knowledge.Reference) error {
 	return ew.err
 }
 
+// bibCited writes the references a report cites, in its reference-list
+// order, each after a comment line giving the label the report uses for
+// it, so that "Craine et al. 2015a" in report.md can be matched to its
+// entry. BibTeX ignores text outside entries.
+func bibCited(w io.Writer, refs []citedRef) error {
+	ew := &errWriter{w: w}
+	ew.printf("%% References cited in report.md, written by nlens. Each entry follows\n%% the label report.md cites it by.\n")
+	for _, cr := range refs {
+		ew.printf("\n%% report.md: %s\n%s", cr.Label, bibEntry(cr.Ref))
+	}
+	return ew.err
+}
+
+// bibKinds maps knowledge reference types to BibTeX entry types.
+var bibKinds = map[string]string{"article": "article", "book": "book", "chapter": "incollection", "report": "techreport", "web": "misc"}
+
 func bibEntry(r knowledge.Reference) string {
-	kind := map[string]string{"article": "article", "book": "book", "chapter": "incollection", "report": "techreport", "web": "misc"}[r.Type]
+	kind, ok := bibKinds[r.Type]
 	if r.Type == "thesis" {
-		kind = "mastersthesis"
+		kind, ok = "mastersthesis", true
 		if strings.Contains(strings.ToLower(r.Note+r.Status), "phd") {
 			kind = "phdthesis"
 		}
+	}
+	if !ok {
+		kind = "misc"
+	}
+	// A chapter without a publisher is a paper in proceedings, which
+	// BibTeX's inproceedings type allows. An entry type whose required
+	// container is missing is written as misc rather than as an invalid
+	// entry.
+	if kind == "incollection" && r.Publisher == "" && r.Booktitle != "" {
+		kind = "inproceedings"
+	}
+	switch {
+	case kind == "article" && r.Journal == "",
+		kind == "incollection" && r.Booktitle == "",
+		kind == "techreport" && r.Institution == "",
+		kind == "book" && r.Publisher == "":
+		kind = "misc"
 	}
 	var fields [][2]string
 	add := func(k, v string) {
@@ -97,11 +134,11 @@ func bibEntry(r knowledge.Reference) string {
 			fields = append(fields, [2]string{k, v})
 		}
 	}
-	add("author", bibEscape(strings.Join(r.Authors, " and ")))
+	add("author", bibNames(r.Authors))
 	add("title", "{"+bibEscape(r.Title)+"}")
 	add("journal", bibEscape(r.Journal))
 	add("booktitle", bibEscape(r.Booktitle))
-	add("editor", bibEscape(strings.Join(r.Editors, " and ")))
+	add("editor", bibNames(r.Editors))
 	add("publisher", bibEscape(r.Publisher))
 	if r.Type == "thesis" {
 		add("school", bibEscape(r.Institution))
@@ -132,6 +169,20 @@ func bibEntry(r knowledge.Reference) string {
 	}
 	b.WriteString("}\n")
 	return b.String()
+}
+
+// bibNames joins names with "and"; a name without a comma is an
+// organisation ("CIAAW") and is braced so BibTeX does not split it into
+// given and family names.
+func bibNames(names []string) string {
+	out := make([]string, len(names))
+	for i, n := range names {
+		out[i] = bibEscape(n)
+		if !strings.Contains(n, ",") {
+			out[i] = "{" + out[i] + "}"
+		}
+	}
+	return strings.Join(out, " and ")
 }
 
 // bibEscape escapes the characters BibTeX and LaTeX treat specially.

@@ -1,0 +1,432 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"nlens/knowledge"
+	"nlens/rank"
+	"nlens/rules"
+)
+
+// discussion drafts one to three paragraphs in the hedged register of a
+// journal discussion: which explanations lead and how large they are, by
+// what mechanism, what the data leave open and which measurement would
+// settle it. Every statement about a mechanism, a source or a method
+// carries the knowledge base's references for it; statements about this
+// result rest on the Methods section.
+func discussion(r *rank.Result, kb *knowledge.Base, ci citer) []string {
+	d := drafter{kb: kb, ci: ci, site: r.SiteID}
+	switch n := len(r.Comparisons); {
+	case n == 0:
+		return []string{"The study defines no comparison, so there is nothing to discuss."}
+	case n == 1:
+		c := r.Comparisons[0]
+		d.n = newNamer(kb, c)
+		first := d.interpretation(c, false)
+		if second := d.openQuestions(c); second != "" {
+			return []string{first, second}
+		}
+		return []string{first}
+	default:
+		var out []string
+		for i, c := range r.Comparisons {
+			if i == 2 && n > 3 {
+				out = append(out, d.remaining(r.Comparisons[2:]))
+				break
+			}
+			d.n = newNamer(kb, c)
+			p := d.interpretation(c, true)
+			if q := d.openQuestions(c); q != "" {
+				p += " " + q
+			}
+			out = append(out, p)
+		}
+		return out
+	}
+}
+
+// drafter holds what the discussion's sentences need.
+type drafter struct {
+	kb   *knowledge.Base
+	ci   citer
+	n    namer
+	site string
+	// explained lists candidate ids whose mechanism has been given.
+	explained []string
+}
+
+// interpretation is the leading explanation: the pattern, the candidate,
+// its size and its mechanism. named says the comparison by name.
+func (d *drafter) interpretation(c rank.ComparisonResult, named bool) string {
+	var b strings.Builder
+	intro := ""
+	if named {
+		intro = "In the " + quoteName(c.Name) + " comparison, "
+	}
+	if len(c.Hypotheses) == 0 {
+		return intro + "no candidate explanation could be scored."
+	}
+	top := c.Hypotheses[0]
+	pattern := d.pattern(c)
+	switch {
+	case c.NoFit:
+		fmt.Fprintf(&b, "%s%s %s not reproduced by any of the candidate changes in N cycling considered here: the closest, %s, fails the posterior-predictive check (%s). This suggests that a process not represented in the model, a site that departs from the `%s` template, or a problem in the data is involved, and the ranking should not be read as support for any candidate.",
+			intro, pattern.text, pattern.verb("is", "are"), d.n.name(top), pValue(top.Fit.P), d.site)
+		return capitalize(b.String())
+	case top.ID == rules.None:
+		fmt.Fprintf(&b, "%s%s %s small relative to their uncertainty, and the most probable interpretation is that N cycling did not change (posterior probability %s).",
+			intro, pattern.text, pattern.verb("is", "are"), fmtProb(top.Posterior))
+		return capitalize(b.String())
+	}
+	fmt.Fprintf(&b, "%s%s %s most consistent with %s; this explanation carries a posterior probability of %s.",
+		intro, pattern.text, pattern.verb("is", "are"), d.academic(top), fmtProb(top.Posterior))
+	if m := d.mechanism(top, "Under this interpretation, "); m != "" {
+		b.WriteString(" " + m)
+	}
+	return capitalize(b.String())
+}
+
+// openQuestions names the alternatives the data cannot exclude and the
+// measurement that would best separate them.
+func (d *drafter) openQuestions(c rank.ComparisonResult) string {
+	if len(c.Hypotheses) == 0 {
+		return ""
+	}
+	var b strings.Builder
+	hs := named(c, 3)
+	if !c.NoFit && len(hs) > 1 {
+		var good, poor []rank.Hypothesis
+		for _, h := range hs[1:] {
+			if h.Fit.P >= adequateFit {
+				good = append(good, h)
+			} else {
+				poor = append(poor, h)
+			}
+		}
+		var sentences []string
+		if len(good) > 0 {
+			var names, ps []string
+			for _, h := range good {
+				names = append(names, fmt.Sprintf("%s (posterior probability %s)", d.n.name(h), fmtProb(h.Posterior)))
+				ps = append(ps, fmtP(h.Fit.P))
+			}
+			s := fmt.Sprintf("Alternative interpretations cannot be excluded on the present data: %s %s the observed shifts comparably well (posterior-predictive p = %s)",
+				joinAnd(names), verb(len(good), "reproduces", "reproduce"), joinAnd(ps))
+			set := append([]rank.Hypothesis{hs[0]}, good...)
+			worst, ratio := spread(c, set)
+			all := "all of them predict"
+			if len(set) == 2 {
+				all = "both predict"
+			}
+			if worst.Observable == "" || ratio < 1 {
+				s += fmt.Sprintf(", as %s shifts within one standard error of each other for every quantity measured.", all)
+			} else {
+				lo, hi := predictedRange(worst.Observable, set)
+				rng := fmt.Sprintf("%s to %s ‰", plusSigned(lo, 1), plusSigned(hi, 1))
+				if worst.LogRatio {
+					rng = fmt.Sprintf("ln ratio %s to %s", plusSigned(lo, 2), plusSigned(hi, 2))
+				}
+				s += fmt.Sprintf("; their predictions diverge most for %s (%s), but not beyond the combined uncertainty of the isotope effects and the observations.", obsName(worst.Observable), rng)
+			}
+			sentences = append(sentences, s)
+		}
+		for _, h := range poor {
+			sentences = append(sentences, fmt.Sprintf("%s retains a posterior probability of %s but reproduces the observations poorly (posterior-predictive %s).",
+				capitalize(d.n.name(h)), fmtProb(h.Posterior), pValue(h.Fit.P)))
+		}
+		for _, h := range good {
+			if m := d.mechanism(h, "Under the alternative involving "+d.n.short(h)+", "); m != "" {
+				sentences = append(sentences, m)
+				break
+			}
+		}
+		b.WriteString(strings.Join(sentences, " "))
+	}
+	if s := d.resolution(c, hs); s != "" {
+		if b.Len() > 0 {
+			b.WriteString(" ")
+		}
+		b.WriteString(s)
+	}
+	return b.String()
+}
+
+// resolution is the measurement sentence.
+func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) string {
+	if len(c.Measurements) == 0 || c.Measurements[0].Bits < minUsefulBits {
+		if c.NoFit {
+			return ""
+		}
+		return "None of the catalogued measurements is expected to discriminate substantially among these explanations, so additional replication of the existing measurements may be the more efficient next step."
+	}
+	m := c.Measurements[0]
+	refs := d.measurementRefs(m.ID)
+	if c.NoFit {
+		return fmt.Sprintf("A direct constraint such as %s %s may help to identify what the model is missing.", m.Label, refs)
+	}
+	var ids []string
+	for _, h := range hs {
+		ids = append(ids, h.ID)
+	}
+	var b strings.Builder
+	fmt.Fprintf(&b, "Measuring %s would probably be the most effective way to discriminate among these explanations (expected information gain %s bits)", m.Label, sig2(m.Bits))
+	if a, bb, z := separation(m, ids); a != "" && z > 0 {
+		ha, _ := hypothesisByID(c, a)
+		hb, _ := hypothesisByID(c, bb)
+		fmt.Fprintf(&b, ": the model predicts %s under %s but %s under %s", expectation(m, m.Predicted[a]), d.under(ha), expectation(m, m.Predicted[bb]), d.under(hb))
+	}
+	if refs != "" {
+		b.WriteString(" " + refs)
+	}
+	b.WriteString(".")
+	if len(c.Measurements) > 1 {
+		m2 := c.Measurements[1]
+		if m2.Bits >= minUsefulBits && m2.Cost < m.Cost {
+			fmt.Fprintf(&b, " %s, which is cheaper, would add about %s bits", capitalize(m2.Label), sig2(m2.Bits))
+			if r := d.measurementRefs(m2.ID); r != "" {
+				b.WriteString(" " + r)
+			}
+			b.WriteString(".")
+		}
+	}
+	return b.String()
+}
+
+// adequateFit is the posterior-predictive p below which the discussion
+// does not call an alternative's fit comparable (the usual 5 % level,
+// common practice; the engine's own no-fit threshold is stricter).
+const adequateFit = 0.05
+
+// pValue is "p = 0.27" or "p < 0.001".
+func pValue(p float64) string {
+	s := fmtP(p)
+	if strings.HasPrefix(s, "<") {
+		return "p " + s
+	}
+	return "p = " + s
+}
+
+// under is "the nitrification scenario", "no change".
+func (d *drafter) under(h rank.Hypothesis) string {
+	if h.ID == rules.None {
+		return "no change"
+	}
+	return "the " + d.n.short(h) + " scenario"
+}
+
+func (d *drafter) measurementRefs(id string) string {
+	if km, ok := d.kb.Measurement(id); ok {
+		return d.ci.cite(km.Refs...)
+	}
+	return ""
+}
+
+// remaining summarises comparisons beyond the second in one paragraph.
+func (d *drafter) remaining(cs []rank.ComparisonResult) string {
+	var parts []string
+	for _, c := range cs {
+		if len(c.Hypotheses) == 0 {
+			continue
+		}
+		n := newNamer(d.kb, c)
+		top := c.Hypotheses[0]
+		s := fmt.Sprintf("%s in %s (posterior probability %s)", n.name(top), quoteName(c.Name), fmtProb(top.Posterior))
+		if c.NoFit {
+			s = fmt.Sprintf("no adequate explanation in %s", quoteName(c.Name))
+		}
+		parts = append(parts, s)
+	}
+	return "In the remaining comparisons, the leading interpretations were " + joinAnd(parts) + "; their tables above give the alternatives and the measurements that would separate them."
+}
+
+// mechanism explains how the hypothesis's candidates would produce the
+// shift, once per candidate in a discussion, with their references. For a
+// source it adds the source's δ15N range and references.
+func (d *drafter) mechanism(h rank.Hypothesis, lead string) string {
+	parts := d.n.parts
+	var clauses []string
+	var refs []string
+	ids := []string{h.ID}
+	if h.Pair {
+		ids = ids[:0]
+		for _, m := range h.Magnitudes {
+			ids = append(ids, m.Candidate)
+		}
+	}
+	var sources []string
+	for _, id := range ids {
+		if contains(d.explained, id) {
+			continue
+		}
+		single, ok := parts[id]
+		if !ok {
+			if id == h.ID {
+				single = h
+			} else {
+				continue
+			}
+		}
+		if single.Mechanism == "" {
+			continue
+		}
+		d.explained = append(d.explained, id)
+		clauses = append(clauses, strings.TrimSuffix(single.Mechanism, "."))
+		refs = append(refs, single.Refs...)
+		if strings.HasPrefix(id, rules.SourcePrefix) {
+			sources = append(sources, strings.TrimPrefix(id, rules.SourcePrefix))
+		}
+	}
+	if len(clauses) == 0 {
+		return ""
+	}
+	s := lead + strings.Join(clauses, "; ")
+	if c := d.ci.cite(refs...); c != "" {
+		s += " " + c
+	}
+	s += "."
+	for _, id := range sources {
+		src, ok := d.kb.Source(id)
+		if !ok || len(src.D15NRangePermil) != 2 {
+			continue
+		}
+		s += fmt.Sprintf(" %s typically carries δ15N of %s to %s ‰",
+			capitalize(cutParen(src.Label)), plusSigned(src.D15NRangePermil[0], 1), plusSigned(src.D15NRangePermil[1], 1))
+		if c := d.ci.cite(src.Refs...); c != "" {
+			s += " " + c
+		}
+		s += "."
+	}
+	return capitalize(s)
+}
+
+// academic words a hypothesis with its size for the discussion: "an
+// approximately 2.3-fold increase in nitrification (90 % credible interval
+// 1.4–3.8)".
+func (d *drafter) academic(h rank.Hypothesis) string {
+	if len(h.Magnitudes) == 0 {
+		return d.n.name(h)
+	}
+	var parts []string
+	for _, m := range h.Magnitudes {
+		parts = append(parts, d.academicPart(m))
+	}
+	return strings.Join(parts, ", together with ")
+}
+
+func (d *drafter) academicPart(m rank.Magnitude) string {
+	ci := func(lo, hi string) string { return "90 % credible interval " + lo + "–" + hi }
+	switch {
+	case strings.HasPrefix(m.Candidate, rules.SourcePrefix):
+		name := d.n.sourceName(m.Candidate)
+		if m.Fixed {
+			return fmt.Sprintf("the declared %s addition (%s %s)", name, sig2(m.Best), rateMarkdown)
+		}
+		return fmt.Sprintf("a new input of %s of about %s %s (%s)", name, sig2(m.Best), rateMarkdown, ci(sig2(m.Low), sig2(m.High)))
+	case m.Unit == shareUnit:
+		dir := "a change in the form of plant N uptake"
+		switch {
+		case m.ProbMore >= directionSure:
+			dir = "a shift of plant uptake toward nitrate"
+		case m.ProbMore <= 1-directionSure:
+			dir = "a shift of plant uptake toward ammonium"
+		}
+		return fmt.Sprintf("%s, with about %d %% of uptake as nitrate against %d %% in the site model (%s %%)",
+			dir, pct(m.Best), pct(m.Baseline), ci(fmt.Sprint(pct(m.Low)), fmt.Sprint(pct(m.High))))
+	}
+	p := d.n.process(m.Candidate)
+	rel := "the control rate"
+	if strings.Contains(m.Unit, "flux") {
+		rel = "the control flux"
+	}
+	switch {
+	case m.ProbMore >= directionSure && spansBaseline(m):
+		return fmt.Sprintf("an increase in %s, most probably about %s-fold relative to %s, although the 90 %% credible interval (%s–%s) still includes no change", p, sig2(m.Best), rel, sig2(m.Low), sig2(m.High))
+	case m.ProbMore <= 1-directionSure && spansBaseline(m):
+		return fmt.Sprintf("a reduction of %s, most probably to about %s of %s, although the 90 %% credible interval (%s–%s) still includes no change", p, sig2(m.Best), rel, sig2(m.Low), sig2(m.High))
+	case m.ProbMore >= directionSure:
+		return fmt.Sprintf("an approximately %s-fold increase in %s relative to %s (%s)", sig2(m.Best), p, rel, ci(sig2(m.Low), sig2(m.High)))
+	case m.ProbMore <= 1-directionSure:
+		return fmt.Sprintf("a reduction of %s to about %s of %s (%s)", p, sig2(m.Best), rel, ci(sig2(m.Low), sig2(m.High)))
+	}
+	return fmt.Sprintf("a change in %s whose direction the data do not constrain (%s times %s)", p, ci(sig2(m.Low), sig2(m.High)), rel)
+}
+
+// patternText is a comparison's observed pattern as a noun phrase, and
+// whether it is grammatically plural.
+type patternText struct {
+	text   string
+	plural bool
+}
+
+func (p patternText) verb(singular, plural string) string {
+	if p.plural {
+		return plural
+	}
+	return singular
+}
+
+func verb(n int, singular, plural string) string {
+	if n == 1 {
+		return singular
+	}
+	return plural
+}
+
+// pattern words the observed shifts as the subject of a sentence: "the
+// enrichment of soil-nitrate δ15N (+6.5 ± 1.6 ‰) and foliar δ15N (+2.1 ±
+// 0.5 ‰) three years after the treatment began, with no clear change in
+// bulk-soil δ15N (+0.1 ± 0.4 ‰),".
+func (d *drafter) pattern(c rank.ComparisonResult) patternText {
+	var up, down, bigger, smaller, unclear []string
+	for _, o := range orderedObserved(c.Observed) {
+		name := obsName(o.Observable)
+		if o.LogRatio {
+			v := fmt.Sprintf("%s (ln ratio %s ± %s)", name, plusSigned(o.Shift, 2), signed(o.SE, 2))
+			switch {
+			case math.Abs(o.Shift) < clearSE*o.SE:
+				unclear = append(unclear, v)
+			case o.Shift > 0:
+				bigger = append(bigger, v)
+			default:
+				smaller = append(smaller, v)
+			}
+			continue
+		}
+		v := fmt.Sprintf("%s (%s ± %s ‰)", name, plusSigned(o.Shift, 1), signed(o.SE, 1))
+		switch {
+		case math.Abs(o.Shift) < clearSE*o.SE:
+			unclear = append(unclear, v)
+		case o.Shift > 0:
+			up = append(up, v)
+		default:
+			down = append(down, v)
+		}
+	}
+	var parts []string
+	if len(up) > 0 {
+		parts = append(parts, "the enrichment of "+joinAnd(up))
+	}
+	if len(down) > 0 {
+		parts = append(parts, "the depletion of "+joinAnd(down))
+	}
+	if len(bigger) > 0 {
+		parts = append(parts, "the increase in "+joinAnd(bigger))
+	}
+	if len(smaller) > 0 {
+		parts = append(parts, "the decrease in "+joinAnd(smaller))
+	}
+	when := " under the treatment"
+	if c.Years != nil {
+		when = " " + yearsWords(*c.Years) + " after the treatment began"
+	}
+	if len(parts) == 0 {
+		return patternText{text: "the differences in " + joinAnd(unclear) + when, plural: true}
+	}
+	text := joinAnd(parts) + when
+	if len(unclear) > 0 {
+		text += ", with no clear change in " + joinOr(unclear) + ","
+	}
+	return patternText{text: text, plural: len(parts) > 1}
+}

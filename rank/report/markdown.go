@@ -1,0 +1,352 @@
+package report
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+
+	"nlens/knowledge"
+	"nlens/rank"
+)
+
+// MarkdownOptions say what the Markdown report links to.
+type MarkdownOptions struct {
+	// Figures links the figures WriteBundle writes beside report.md.
+	Figures bool
+	// MaxHypotheses shown in the explanations table (result.json has all).
+	MaxHypotheses int
+	// MaxMeasurements shown in the measurements tables.
+	MaxMeasurements int
+}
+
+func (o MarkdownOptions) withDefaults() MarkdownOptions {
+	t := ExplainOptions{MaxHypotheses: o.MaxHypotheses, MaxMeasurements: o.MaxMeasurements}.withDefaults()
+	o.MaxHypotheses, o.MaxMeasurements = t.MaxHypotheses, t.MaxMeasurements
+	return o
+}
+
+// Markdown writes the full report: summary, observed shifts, explanations,
+// next measurements, a discussion draft with author–year citations,
+// cautions, methods and the references cited.
+func Markdown(w io.Writer, r *rank.Result, kb *knowledge.Base, opt MarkdownOptions) error {
+	text, _ := markdownReport(r, kb, opt)
+	_, err := io.WriteString(w, text)
+	return err
+}
+
+// markdownReport composes the report and returns it with the references it
+// cites, in reference-list order.
+func markdownReport(r *rank.Result, kb *knowledge.Base, opt MarkdownOptions) (string, []citedRef) {
+	opt = opt.withDefaults()
+	text, refs := twoPass(kb, func(ci citer) string { return markdownBody(r, kb, ci, opt) })
+	var b strings.Builder
+	b.WriteString(text)
+	b.WriteString("## References\n\n")
+	if len(refs) == 0 {
+		b.WriteString("No references were cited.\n")
+	}
+	for _, cr := range refs {
+		b.WriteString("- " + mdEscape(fullReference(cr.Ref, cr.Suffix)) + "\n")
+	}
+	return b.String(), refs
+}
+
+// markdownBody is the report up to its reference list.
+func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOptions) string {
+	var b strings.Builder
+	title := r.StudyTitle
+	if title == "" {
+		title = r.StudyFile
+	}
+	fmt.Fprintf(&b, "# %s\n\n", mdEscape(plain(title)))
+	fmt.Fprintf(&b, "*Draft report written by nlens %s from the study file; check every statement before sending it on.*\n\n", mdEscape(r.Version))
+
+	b.WriteString("## Summary\n\n")
+	g := glosses{}
+	for _, c := range r.Comparisons {
+		n := newNamer(kb, c)
+		fmt.Fprintf(&b, "%s %s\n\n", mdEscape(patternSentence(c)), mdEscape(leadParagraph(c, n, &g, rateMarkdown)))
+	}
+
+	plan := figurePlan(r)
+	for i, c := range r.Comparisons {
+		comparisonSection(&b, i, c, kb, ci, opt, plan)
+	}
+
+	b.WriteString("## Discussion draft\n\n")
+	b.WriteString("*Generated from the result for adaptation into a manuscript; the wording is deliberately hedged.*\n\n")
+	for _, p := range discussion(r, kb, ci) {
+		b.WriteString(p + "\n\n")
+	}
+
+	b.WriteString("## Cautions\n\n")
+	for _, c := range cautions(r) {
+		b.WriteString("- " + c + "\n")
+	}
+	b.WriteString("\n## Methods\n\n")
+	b.WriteString(methods(r, kb, ci))
+	return b.String()
+}
+
+// comparisonSection writes the tables and notes of one comparison.
+func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb *knowledge.Base, ci citer, opt MarkdownOptions, plan []figureSpec) {
+	n := newNamer(kb, c)
+	fmt.Fprintf(b, "## Comparison: %s\n\n", mdEscape(plain(c.Name)))
+	fmt.Fprintf(b, "%s.\n\n", capitalize(when(c.Years)))
+
+	b.WriteString("### Observed shifts\n\n")
+	b.WriteString("Treatment minus control; δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); SE is Welch's standard error of the difference.\n\n")
+	var rows [][]string
+	for _, o := range c.Observed {
+		dec := 2
+		unit := "‰"
+		ctl, trt := signed(o.Control.Mean, 2), signed(o.Treatment.Mean, 2)
+		if o.LogRatio {
+			dec, unit = 3, "ln ratio"
+			ctl, trt = num(o.Control.Mean), num(o.Treatment.Mean)
+		}
+		rows = append(rows, []string{o.Observable, ctl, trt, plusSigned(o.Shift, dec), signed(o.SE, dec), unit,
+			fmt.Sprintf("%d / %d", o.Control.N, o.Treatment.N)})
+	}
+	writeTable(b, []string{"observable", "control", "treatment", "shift", "SE", "unit", "n (control / treatment)"}, "lrrrrlr", rows)
+
+	b.WriteString("### Explanations\n\n")
+	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: best value with its 90 % credible interval. Fit p: posterior-predictive check of the observed shifts; below 0.01 the explanation does not reproduce the data.\n\n")
+	rows = rows[:0]
+	for i, h := range c.Hypotheses {
+		if i >= opt.MaxHypotheses {
+			break
+		}
+		post := fmtProb(h.Posterior)
+		if h.Indistinguishable {
+			post = "counted with none"
+		}
+		rows = append(rows, []string{strconv.Itoa(i + 1), shortLabel(h), "`" + h.ID + "`", post, fmtProb(h.PriorProb), MagnitudeText(h), fmtP(h.Fit.P)})
+	}
+	writeTable(b, []string{"#", "explanation", "id", "posterior", "prior", "magnitude (90 % interval)", "fit p"}, "rllrrlr", rows)
+	if k := len(c.Hypotheses) - opt.MaxHypotheses; k > 0 {
+		fmt.Fprintf(b, "%d further candidates are listed in result.json (`--format json`).\n\n", k)
+	}
+	lead := leadingIndex(c)
+	for _, i := range lead {
+		h := c.Hypotheses[i]
+		fmt.Fprintf(b, "- **#%d %s** (posterior %s)", i+1, mdEscape(shortLabel(h)), fmtProb(h.Posterior))
+		switch {
+		case h.Pair:
+			fmt.Fprintf(b, ": %s", mdEscape(n.sized(h, rateMarkdown)))
+		case len(h.Magnitudes) == 1:
+			fmt.Fprintf(b, ": %s", mdEscape(sizePart(h.Magnitudes[0], rateMarkdown)))
+		}
+		b.WriteString(".")
+		if h.Mechanism != "" {
+			fmt.Fprintf(b, " Mechanism: %s", mdEscape(strings.TrimSuffix(h.Mechanism, ".")))
+			if c := ci.cite(h.Refs...); c != "" {
+				b.WriteString(" " + c)
+			}
+			b.WriteString(".")
+		}
+		for _, a := range h.Adjustments {
+			fmt.Fprintf(b, " Prior ×%s by context rule `%s`", sig2(a.Factor), a.Rule)
+			if c := ci.cite(a.Refs...); c != "" {
+				b.WriteString(" " + c)
+			}
+			fmt.Fprintf(b, ": %s.", mdEscape(strings.TrimSuffix(a.Reason, ".")))
+		}
+		b.WriteString("\n")
+	}
+	if len(lead) > 0 {
+		b.WriteString("\n")
+		fmt.Fprintf(b, "Predicted shifts under the leading explanations (posterior mean ± sd; observed ± SE):\n\n")
+		headers := []string{"observable", "observed"}
+		for _, i := range lead {
+			headers = append(headers, "#"+strconv.Itoa(i+1))
+		}
+		rows = rows[:0]
+		for _, o := range c.Observed {
+			dec := 2
+			if o.LogRatio {
+				dec = 3
+			}
+			row := []string{o.Observable, pm(o.Shift, o.SE, dec)}
+			for _, i := range lead {
+				m := c.Hypotheses[i].Predicted[o.Observable]
+				row = append(row, pm(m.Mean, m.SD, dec))
+			}
+			rows = append(rows, row)
+		}
+		writeTable(b, headers, "l"+strings.Repeat("r", len(headers)-1), rows)
+	}
+
+	b.WriteString("### Next measurements\n\n")
+	if len(c.Measurements) == 0 {
+		b.WriteString("No catalogue measurement is left that the study has not already made.\n\n")
+	} else {
+		b.WriteString("Ranked by expected information gain: how much, on average, the measurement would tell about which explanation holds, in bits (1 bit settles an even two-way choice).\n\n")
+		rows = rows[:0]
+		for i, m := range c.Measurements {
+			if i >= opt.MaxMeasurements {
+				break
+			}
+			method := mdEscape(m.Method)
+			if km, ok := kb.Measurement(m.ID); ok {
+				if c := ci.cite(km.Refs...); c != "" {
+					method += " " + c
+				}
+			}
+			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, "`" + m.ID + "`", strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost), method})
+		}
+		writeTable(b, []string{"#", "measurement", "id", "bits", "cost", "method"}, "rllrll", rows)
+		if len(lead) > 0 {
+			fmt.Fprintf(b, "Predicted shift of each measurement under the leading explanations (mean ± sd including measurement noise for %d replicates per group; ‰, or ln ratio for pools and fluxes):\n\n", c.ReplicatesAssumed)
+			headers := []string{"measurement"}
+			for _, i := range lead {
+				headers = append(headers, "#"+strconv.Itoa(i+1))
+			}
+			rows = rows[:0]
+			for i, m := range c.Measurements {
+				if i >= opt.MaxMeasurements {
+					break
+				}
+				dec := 1
+				if m.Unit == knowledge.UnitLogRatio {
+					dec = 2
+				}
+				row := []string{m.ID}
+				for _, hi := range lead {
+					p, ok := m.Predicted[c.Hypotheses[hi].ID]
+					if !ok {
+						row = append(row, "")
+						continue
+					}
+					row = append(row, pm(p.Mean, p.SD, dec))
+				}
+				rows = append(rows, row)
+			}
+			writeTable(b, headers, "l"+strings.Repeat("r", len(headers)-1), rows)
+		}
+		if why := whyMeasure(c, n); why != "" && len(c.Measurements) > 0 {
+			b.WriteString(mdEscape(why) + "\n\n")
+		}
+	}
+
+	if opt.Figures {
+		var figs []figureSpec
+		for _, f := range plan {
+			if f.Comparison == idx {
+				figs = append(figs, f)
+			}
+		}
+		if len(figs) > 0 {
+			b.WriteString("### Figures\n\n")
+			for _, f := range figs {
+				fmt.Fprintf(b, "![%s](%s.svg)\n\n*%s* PNG: [%s.png](%s.png).\n\n", mdEscape(f.Alt), f.Base, mdEscape(f.Caption), f.Base, f.Base)
+			}
+		}
+	}
+	if len(c.Warnings) > 0 {
+		b.WriteString("### Warnings\n\n")
+		for _, w := range c.Warnings {
+			b.WriteString("- " + mdEscape(plain(w)) + "\n")
+		}
+		b.WriteString("\n")
+	}
+}
+
+// whyMeasure is the e-mail's recommendation paragraph without its
+// glosses (the Markdown explains bits above the table).
+func whyMeasure(c rank.ComparisonResult, n namer) string {
+	g := glosses{bits: true, posterior: true}
+	return nextParagraph(c, n, &g, true, "Recommended next: ")
+}
+
+// writeTable writes a Markdown table followed by a blank line.
+func writeTable(b *strings.Builder, headers []string, align string, rows [][]string) {
+	// markdownTable writes to a strings.Builder, which never fails.
+	_ = markdownTable(b, headers, align, rows)
+	b.WriteString("\n")
+}
+
+// cautions are the report's cautions: general ones always, and the
+// result's own when it has them.
+func cautions(r *rank.Result) []string {
+	out := []string{
+		"δ15N evidence is indicative, not proof. Different processes can leave similar isotope signatures, and a posterior probability ranks only the candidates nlens considers; a change it does not model cannot win.",
+		fmt.Sprintf("The results depend on the assumed isotope effects (ε and their ranges in the nlens knowledge base, `nlens facts effects`) and on the site model `%s`. Where the real site differs from the template in pool sizes, fluxes or the routes N takes, the predicted shifts and the ranking can change.", r.SiteID),
+		"Decisions on management, regulation or liability should rest on several independent lines of evidence, on local regulations and on the advice of licensed professionals, not on this analysis alone.",
+	}
+	for _, c := range r.Comparisons {
+		if c.NoFit {
+			out = append(out, fmt.Sprintf("In %s no explanation reproduces the observed shifts, so its ranking is not evidence for any of them.", mdEscape(quoteName(c.Name))))
+		}
+	}
+	return out
+}
+
+// methods says how the result was computed, with every setting a reader
+// needs to reproduce it.
+func methods(r *rank.Result, kb *knowledge.Base, ci citer) string {
+	m := r.Method
+	var b strings.Builder
+	site := fmt.Sprintf("`%s`", r.SiteID)
+	if r.SiteDescription != "" {
+		site += " (" + mdEscape(strings.TrimSuffix(r.SiteDescription, ".")) + ")"
+	}
+	if c := ci.cite(siteRefs(r, kb)...); c != "" {
+		site += " " + c
+	}
+	fmt.Fprintf(&b, "Shifts were taken as treatment minus control, with Welch standard errors from the group statistics. Each candidate change in N cycling was simulated on the site model %s, a compartment model of the N cycle solved exactly in 14N and 15N; a comparison with a stated time since the treatment began was evaluated at that time, a long-standing contrast at the new steady state. ", site)
+	fmt.Fprintf(&b, "The evidence for each candidate integrates the likelihood of the observed shifts over its magnitude prior (quadrature on %d nodes interpolated to %d points for single candidates, %d × %d nodes interpolated to %d × %d points for pairs) and over %d nuisance draws of isotope effects, source δ15N and site fluxes, draw 0 being the nominal site. ",
+		m.CoarseNodes, m.FinePoints, m.PairCoarseNodes, m.PairCoarseNodes, m.PairFinePoints, m.PairFinePoints, m.Draws)
+	fmt.Fprintf(&b, "Draws were weighted by how well their baseline reproduces the control's absolute values (allowed offset %s ‰, or %s on the ln scale for pools and fluxes). A structural model error σ_model = %s ‰ (%s on the ln scale) was added to each observation's variance. ",
+		trimFloat(m.LevelSDPermil), trimFloat(m.LevelSDLog), trimFloat(m.ModelErrorPermil), trimFloat(m.ModelErrorLog))
+	fmt.Fprintf(&b, "Priors: no change in N cycling held %s of the prior probability and the candidates shared the rest by their context-adjusted weights; pairs were formed from the %d best single candidates with a prior of %s × the product of their priors. ",
+		trimFloat(m.NoneShare), m.PairsFrom, trimFloat(m.PairPrior))
+	fmt.Fprintf(&b, "Next measurements were predicted from %d posterior samples of each leading explanation with catalogue measurement noise added, and ranked by the mutual information between the outcome and the explanation, in bits, by Gauss–Hermite quadrature with %d nodes.\n\n", m.SamplesPerLeading, m.HermiteNodes)
+
+	rows := [][]string{
+		{"nlens version", r.Version},
+		{"study file", "`" + plain(r.StudyFile) + "`"},
+		{"site model", "`" + r.SiteID + "`"},
+		{"seed", strconv.FormatUint(r.Seed, 10)},
+		{"nuisance draws", strconv.Itoa(m.Draws)},
+		{"σ_model (‰ / ln scale)", trimFloat(m.ModelErrorPermil) + " / " + trimFloat(m.ModelErrorLog)},
+		{"control-level sd (‰ / ln scale)", trimFloat(m.LevelSDPermil) + " / " + trimFloat(m.LevelSDLog)},
+		{"prior share of no change", trimFloat(m.NoneShare)},
+		{"pair prior factor", trimFloat(m.PairPrior)},
+		{"pairs formed from best singles", strconv.Itoa(m.PairsFrom)},
+		{"quadrature nodes / points (single)", fmt.Sprintf("%d / %d", m.CoarseNodes, m.FinePoints)},
+		{"quadrature nodes / points per axis (pair)", fmt.Sprintf("%d / %d", m.PairCoarseNodes, m.PairFinePoints)},
+		{"posterior samples per leading explanation", strconv.Itoa(m.SamplesPerLeading)},
+		{"Gauss–Hermite nodes", strconv.Itoa(m.HermiteNodes)},
+	}
+	writeTable(&b, []string{"setting", "value"}, "ll", rows)
+	fmt.Fprintf(&b, "To reproduce: `nlens explain %s --seed %d --draws %d --model-error %s` with nlens %s and the same knowledge base and rules (add any `--rules` files used).\n\n",
+		shellQuote(plain(r.StudyFile)), r.Seed, m.Draws, trimFloat(m.ModelErrorPermil), r.Version)
+	return b.String()
+}
+
+// trimFloat prints a setting with up to 6 significant digits.
+func trimFloat(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "n/a"
+	}
+	return strconv.FormatFloat(v, 'g', 6, 64)
+}
+
+// shellQuote quotes a path for a POSIX shell when it needs it.
+func shellQuote(s string) string {
+	if s != "" && strings.IndexFunc(s, func(r rune) bool {
+		return !(r == '/' || r == '.' || r == '-' || r == '_' || r >= '0' && r <= '9' || r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z')
+	}) < 0 {
+		return s
+	}
+	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
+}
+
+// mdEscape escapes the characters Markdown would read as formatting in
+// running text.
+func mdEscape(s string) string {
+	return strings.NewReplacer(`\`, `\\`, "*", `\*`, "_", `\_`, "`", "\\`", "[", `\[`, "]", `\]`, "<", `\<`, ">", `\>`).Replace(s)
+}

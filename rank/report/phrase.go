@@ -1,0 +1,475 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+
+	"nlens/forward"
+	"nlens/knowledge"
+	"nlens/rank"
+	"nlens/rank/study"
+	"nlens/rules"
+)
+
+// This file turns numbers of a rank.Result into words for the e-mail text
+// and the Markdown report. It decides wording only; every number comes
+// from the result.
+
+// clearSE is how many standard errors a shift must reach to be called a
+// change in words; within it the text says "about the same". Two standard
+// errors is the usual informal threshold of the trade (common practice).
+const clearSE = 2
+
+// notable is the posterior below which an explanation is not worth naming
+// in prose (it stays in the tables and the JSON).
+const notable = 0.05
+
+// obsName names an observable in prose: "foliar δ15N", "the nitrate pool".
+func obsName(o string) string {
+	switch o {
+	case "foliage":
+		return "foliar δ15N"
+	case "roots":
+		return "root δ15N"
+	case "litter":
+		return "litter δ15N"
+	case "soil":
+		return "bulk-soil δ15N"
+	case "soil-ammonium":
+		return "soil-ammonium δ15N"
+	case "soil-nitrate":
+		return "soil-nitrate δ15N"
+	case "leachate-nitrate":
+		return "leachate-nitrate δ15N"
+	case "fungi":
+		return "fungal δ15N"
+	case "n2o":
+		return "δ15N of emitted N2O"
+	case "nitrate-d18o":
+		return "nitrate δ18O"
+	case "ecosystem":
+		return "whole-ecosystem δ15N"
+	}
+	switch {
+	case strings.HasPrefix(o, "pool:"):
+		return "the " + strings.TrimPrefix(o, "pool:") + " pool"
+	case strings.HasPrefix(o, "flux:"):
+		return "the " + strings.TrimPrefix(o, "flux:") + " flux"
+	}
+	return o
+}
+
+// obsShort names an observable in a figure or table row.
+func obsShort(o string) string {
+	switch o {
+	case "nitrate-d18o":
+		return "nitrate δ18O"
+	case "n2o":
+		return "N2O δ15N"
+	}
+	if strings.HasPrefix(o, "pool:") || strings.HasPrefix(o, "flux:") {
+		return strings.Replace(o, ":", " ", 1)
+	}
+	return o + " δ15N"
+}
+
+// shiftClause describes one observed shift: "foliar δ15N was 1.5 ‰ higher
+// (standard error 0.5 ‰)". first adds the gloss of "standard error".
+func shiftClause(o study.Observed, first bool) string {
+	name := obsName(o.Observable)
+	se := "standard error "
+	if !first {
+		se = "SE "
+	}
+	if o.LogRatio {
+		ratio := math.Exp(o.Shift)
+		if math.Abs(o.Shift) < clearSE*o.SE {
+			return fmt.Sprintf("%s was about the same size (ln ratio %s ± %s)", name, plusSigned(o.Shift, 2), signed(o.SE, 2))
+		}
+		return fmt.Sprintf("%s was %s (ln ratio %s, %s%s)", name, timesPhrase(ratio), plusSigned(o.Shift, 2), se, signed(o.SE, 2))
+	}
+	if math.Abs(o.Shift) < clearSE*o.SE {
+		return fmt.Sprintf("%s was about the same (%s ± %s ‰)", name, plusSigned(o.Shift, 1), signed(o.SE, 1))
+	}
+	dir := "higher"
+	if o.Shift < 0 {
+		dir = "lower"
+	}
+	return fmt.Sprintf("%s was %s ‰ %s (%s%s ‰)", name, signed(math.Abs(o.Shift), 1), dir, se, signed(o.SE, 1))
+}
+
+// timesPhrase says how a ratio compares with 1: "about 3.0 times as large",
+// "about half as large".
+func timesPhrase(ratio float64) string {
+	switch {
+	case ratio >= 1.15:
+		return "about " + sig2(ratio) + " times as large"
+	case ratio <= 1/1.15:
+		return fmt.Sprintf("about %s %% smaller", strconv.Itoa(int(math.Round(100*(1-ratio)))))
+	}
+	return "about the same size"
+}
+
+// patternSentence is the observed pattern of a comparison in one sentence.
+func patternSentence(c rank.ComparisonResult) string {
+	var clauses []string
+	for i, o := range orderedObserved(c.Observed) {
+		clauses = append(clauses, shiftClause(o, i == 0))
+	}
+	lead := "In " + quoteName(c.Name)
+	if c.Years != nil {
+		lead += ", " + yearsWords(*c.Years) + " after the treatment began"
+	} else {
+		lead += " (a long-standing contrast)"
+	}
+	return lead + ", " + joinAnd(clauses) + "."
+}
+
+// orderedObserved puts clear shifts first, largest relative to their SE,
+// so a sentence leads with what moved.
+func orderedObserved(obs []study.Observed) []study.Observed {
+	out := append([]study.Observed(nil), obs...)
+	sort.SliceStable(out, func(i, j int) bool {
+		return zScore(out[i]) > zScore(out[j])
+	})
+	return out
+}
+
+func zScore(o study.Observed) float64 {
+	if !(o.SE > 0) {
+		return math.Inf(1)
+	}
+	return math.Abs(o.Shift) / o.SE
+}
+
+// yearsWords writes a time in years as words for small whole numbers.
+func yearsWords(y float64) string {
+	words := []string{"", "one year", "two years", "three years", "four years", "five years", "six years", "seven years", "eight years", "nine years", "ten years"}
+	if y == math.Trunc(y) && y >= 1 && int(y) < len(words) {
+		return words[int(y)]
+	}
+	if y == 1 {
+		return "one year"
+	}
+	return strconv.FormatFloat(y, 'g', 3, 64) + " years"
+}
+
+// quoteName puts a comparison's name in typographic quotes.
+func quoteName(s string) string { return "“" + plain(s) + "”" }
+
+// plain removes the citation marker runes from user-supplied text, so a
+// study's names can never be mistaken for a citation.
+func plain(s string) string {
+	return strings.Map(func(r rune) rune {
+		if r == markOpen || r == markOpenIn || r == markClose {
+			return -1
+		}
+		return r
+	}, s)
+}
+
+// joinAnd joins "a", "b" and "c" as "a, b and c".
+func joinAnd(s []string) string {
+	switch len(s) {
+	case 0:
+		return ""
+	case 1:
+		return s[0]
+	}
+	return strings.Join(s[:len(s)-1], ", ") + " and " + s[len(s)-1]
+}
+
+// joinOr is joinAnd with "or".
+func joinOr(s []string) string {
+	if len(s) < 2 {
+		return joinAnd(s)
+	}
+	return strings.Join(s[:len(s)-1], ", ") + " or " + s[len(s)-1]
+}
+
+// components maps candidate ids to the single-candidate hypotheses of a
+// comparison, which carry each candidate's label, mechanism and references;
+// the parts of a pair are looked up here.
+func components(c rank.ComparisonResult) map[string]rank.Hypothesis {
+	out := map[string]rank.Hypothesis{}
+	for _, h := range c.Hypotheses {
+		if !h.Pair {
+			out[h.ID] = h
+		}
+	}
+	return out
+}
+
+// namer words hypotheses using the comparison's singles and the knowledge
+// base's source labels.
+type namer struct {
+	kb    *knowledge.Base
+	parts map[string]rank.Hypothesis
+}
+
+func newNamer(kb *knowledge.Base, c rank.ComparisonResult) namer {
+	return namer{kb: kb, parts: components(c)}
+}
+
+// sourceName is a source's label without its parenthetical detail.
+func (n namer) sourceName(id string) string {
+	if s, ok := n.kb.Source(strings.TrimPrefix(id, rules.SourcePrefix)); ok {
+		return cutParen(s.Label)
+	}
+	return strings.TrimPrefix(id, rules.SourcePrefix)
+}
+
+// cutParen drops a trailing parenthetical: "nitrate fertilizer (Ca, K or Na
+// nitrate)" → "nitrate fertilizer".
+func cutParen(s string) string {
+	if i := strings.Index(s, " ("); i > 0 {
+		return s[:i]
+	}
+	return s
+}
+
+// process names a candidate's process for prose: its single hypothesis's
+// label, else its id.
+func (n namer) process(id string) string {
+	if h, ok := n.parts[id]; ok && h.Label != "" {
+		return cutParen(h.Label)
+	}
+	return id
+}
+
+// name is a hypothesis in words with its direction: "more nitrification",
+// "a change in nitrification of uncertain direction", "a new input of
+// manure", "the declared ammonium fertilizer addition".
+func (n namer) name(h rank.Hypothesis) string {
+	if len(h.Magnitudes) == 0 {
+		if h.ID == rules.None {
+			return "no change in N cycling"
+		}
+		return h.Label
+	}
+	var parts []string
+	for _, m := range h.Magnitudes {
+		parts = append(parts, n.part(m))
+	}
+	return strings.Join(parts, " together with ")
+}
+
+func (n namer) part(m rank.Magnitude) string {
+	switch {
+	case strings.HasPrefix(m.Candidate, rules.SourcePrefix):
+		if m.Fixed {
+			return "the declared " + n.sourceName(m.Candidate) + " addition"
+		}
+		return "a new input of " + n.sourceName(m.Candidate)
+	case m.Unit == shareUnit:
+		switch {
+		case m.ProbMore >= directionSure:
+			return "a shift of plant uptake toward nitrate"
+		case m.ProbMore <= 1-directionSure:
+			return "a shift of plant uptake toward ammonium"
+		}
+		return "a change in the form of plant N uptake"
+	}
+	p := n.process(m.Candidate)
+	switch {
+	case m.ProbMore >= directionSure:
+		return "more " + p
+	case m.ProbMore <= 1-directionSure:
+		return "less " + p
+	}
+	return "a change in " + p + " of uncertain direction"
+}
+
+// shareUnit is the unit of the uptake-form candidate (rules/candidates.yaml).
+const shareUnit = "share of uptake as nitrate"
+
+// sized is name with each part's magnitude in parentheses: "more
+// nitrification (about 2.3 times the control rate; 90 % interval 1.4–3.8)".
+func (n namer) sized(h rank.Hypothesis, rateUnit string) string {
+	if len(h.Magnitudes) == 0 {
+		return n.name(h)
+	}
+	var parts []string
+	for _, m := range h.Magnitudes {
+		parts = append(parts, n.part(m)+" ("+sizePart(m, rateUnit)+")")
+	}
+	return strings.Join(parts, " together with ")
+}
+
+// sizePart is a magnitude in words.
+func sizePart(m rank.Magnitude, rateUnit string) string {
+	switch {
+	case m.Fixed:
+		return fmt.Sprintf("%s %s", sig2(m.Best), rateUnit)
+	case m.Unit == shareUnit:
+		return fmt.Sprintf("about %d %% of uptake as nitrate against %d %% in the site model; 90 %% interval %d–%d %%",
+			pct(m.Best), pct(m.Baseline), pct(m.Low), pct(m.High))
+	case strings.HasPrefix(m.Unit, "×"):
+		what := "control rate"
+		if strings.Contains(m.Unit, "flux") {
+			what = "control flux"
+		}
+		switch {
+		case m.ProbMore < directionSure && m.ProbMore > 1-directionSure:
+			return fmt.Sprintf("anywhere from %s to %s times the %s, 90 %% interval", sig2(m.Low), sig2(m.High), what)
+		case spansBaseline(m):
+			return fmt.Sprintf("most probably about %s times the %s, though the 90 %% interval %s–%s includes no change", sig2(m.Best), what, sig2(m.Low), sig2(m.High))
+		}
+		return fmt.Sprintf("about %s times the %s; 90 %% interval %s–%s", sig2(m.Best), what, sig2(m.Low), sig2(m.High))
+	}
+	return fmt.Sprintf("about %s %s; 90 %% interval %s–%s", sig2(m.Best), rateUnit, sig2(m.Low), sig2(m.High))
+}
+
+// spansBaseline says whether a magnitude's 90 % interval includes its
+// no-change value.
+func spansBaseline(m rank.Magnitude) bool { return m.Low < m.Baseline && m.High > m.Baseline }
+
+func pct(share float64) int { return int(math.Round(100 * share)) }
+
+// Plain-text and Markdown forms of kg N/ha/yr.
+const (
+	rateText     = "kg N/ha per year"
+	rateMarkdown = "kg N ha⁻¹ yr⁻¹"
+)
+
+// named returns the hypotheses worth naming in prose: positive posterior
+// at or above notable, at most max, the top one always.
+func named(c rank.ComparisonResult, max int) []rank.Hypothesis {
+	var out []rank.Hypothesis
+	for i, h := range c.Hypotheses {
+		if len(out) >= max {
+			break
+		}
+		if i == 0 || (h.Posterior >= notable && !h.Indistinguishable) {
+			out = append(out, h)
+		}
+	}
+	return out
+}
+
+// leadWords says how far the top explanation is ahead of the second.
+func leadWords(top, second float64) string {
+	switch {
+	case top >= 0.9:
+		return "well ahead of everything else"
+	case top >= 3*second:
+		return "clearly ahead"
+	case top >= 1.5*second:
+		return "ahead, but not decisively"
+	}
+	return "only marginally ahead"
+}
+
+// separation finds the two leading hypotheses a measurement separates
+// best, preferring a contrast with the top one: it returns their ids and
+// the difference of the predicted means in units of their combined sd.
+func separation(m rank.Measurement, leading []string) (a, b string, z float64) {
+	var ids []string
+	for _, id := range leading {
+		if _, ok := m.Predicted[id]; ok {
+			ids = append(ids, id)
+		}
+	}
+	score := func(x, y string) float64 {
+		px, py := m.Predicted[x], m.Predicted[y]
+		s := math.Hypot(px.SD, py.SD)
+		if !(s > 0) {
+			return 0
+		}
+		return math.Abs(px.Mean-py.Mean) / s
+	}
+	if len(ids) < 2 {
+		return "", "", 0
+	}
+	// Contrasts with the top hypothesis first; fall back to any pair when
+	// the top one is not separated by at least one combined sd.
+	for j := 1; j < len(ids); j++ {
+		if s := score(ids[0], ids[j]); s > z {
+			a, b, z = ids[0], ids[j], s
+		}
+	}
+	if z >= 1 {
+		return a, b, z
+	}
+	for i := range ids {
+		for j := i + 1; j < len(ids); j++ {
+			if s := score(ids[i], ids[j]); s > z {
+				a, b, z = ids[i], ids[j], s
+			}
+		}
+	}
+	return a, b, z
+}
+
+// expectation words a predicted measurement shift: "a rise of about 5 ‰
+// (± 15 ‰)", "about 1.8 times the control value".
+func expectation(m rank.Measurement, p rank.Moments) string {
+	if m.Unit == knowledge.UnitLogRatio {
+		r := math.Exp(p.Mean)
+		switch {
+		case r >= 1.15:
+			return fmt.Sprintf("about %s times the control value (ln ratio %s ± %s)", sig2(r), plusSigned(p.Mean, 2), signed(p.SD, 2))
+		case r <= 1/1.15:
+			return fmt.Sprintf("about %d %% below the control value (ln ratio %s ± %s)", int(math.Round(100*(1-r))), plusSigned(p.Mean, 2), signed(p.SD, 2))
+		}
+		return fmt.Sprintf("little change (ln ratio %s ± %s)", plusSigned(p.Mean, 2), signed(p.SD, 2))
+	}
+	dec := 1
+	switch {
+	case math.Abs(p.Mean) < 0.3:
+		return fmt.Sprintf("little change (%s ± %s ‰)", plusSigned(p.Mean, dec), signed(p.SD, dec))
+	case p.Mean > 0:
+		return fmt.Sprintf("a rise of about %s ‰ (± %s)", signed(p.Mean, dec), signed(p.SD, dec))
+	}
+	return fmt.Sprintf("a fall of about %s ‰ (± %s)", signed(-p.Mean, dec), signed(p.SD, dec))
+}
+
+// hypothesisByID finds a hypothesis of a comparison.
+func hypothesisByID(c rank.ComparisonResult, id string) (rank.Hypothesis, bool) {
+	for _, h := range c.Hypotheses {
+		if h.ID == id {
+			return h, true
+		}
+	}
+	return rank.Hypothesis{}, false
+}
+
+// spread reports, over the hypotheses given, the largest difference of
+// predicted means for each observed observable relative to its standard
+// error, and the observable where that ratio is largest.
+func spread(c rank.ComparisonResult, hs []rank.Hypothesis) (worst study.Observed, ratio float64) {
+	for _, o := range c.Observed {
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for _, h := range hs {
+			m, ok := h.Predicted[o.Observable]
+			if !ok {
+				continue
+			}
+			lo, hi = math.Min(lo, m.Mean), math.Max(hi, m.Mean)
+		}
+		if !(hi >= lo) || !(o.SE > 0) {
+			continue
+		}
+		if r := (hi - lo) / o.SE; r > ratio || worst.Observable == "" {
+			worst, ratio = o, r
+		}
+	}
+	return worst, ratio
+}
+
+// siteRefs returns the references of the site template a result used, if
+// it used a built-in template.
+func siteRefs(r *rank.Result, kb *knowledge.Base) []string {
+	sf, ok := kb.Site(r.SiteRef)
+	if !ok {
+		return nil
+	}
+	site, err := forward.ParseSite(sf.Name, sf.Data, kb)
+	if err != nil {
+		return nil
+	}
+	return site.References
+}
