@@ -72,7 +72,7 @@ func Explain(ctx context.Context, st *study.Study, kb *knowledge.Base, set *rule
 		opt.Workers = runtime.GOMAXPROCS(0)
 	}
 	res := &Result{Version: opt.Version, Seed: opt.Seed, Draws: opt.Draws, ModelError: opt.ModelError,
-		StudyTitle: st.Title, StudyFile: st.File, SiteRef: st.SiteRef, SiteID: st.Site.ID, SiteDescription: st.Site.Description,
+		StudyTitle: st.Title, StudyFile: st.File, SiteRef: st.SiteRef, SiteID: st.Site.ID, SiteDescription: st.Site.Description, Context: st.Context,
 		Method: Method{
 			Draws: opt.Draws, ModelErrorPermil: opt.ModelError, ModelErrorLog: modelErrorLog,
 			LevelSDPermil: levelSDPermil, LevelSDLog: levelSDLog,

@@ -17,7 +17,13 @@ type Result struct {
 	SiteID     string
 	// SiteDescription is the site model's one-line description.
 	SiteDescription string
-	Method          Method
+	// Context is the study's site context as the rules read it.
+	Context rules.Context
+	// RulesFiles are user rules files added with --rules; Demo marks a run
+	// of the embedded demo study (both set by the caller, for Methods).
+	RulesFiles []string
+	Demo       bool
+	Method     Method
 	Comparisons     []ComparisonResult
 }
 

@@ -116,6 +116,7 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	if err != nil {
 		return err
 	}
+	res.RulesFiles, res.Demo = opt.rulesFiles, opt.studyData != nil
 	if err := report.WriteExplain(e.stdout, res, e.kb, opt.format); err != nil {
 		return err
 	}

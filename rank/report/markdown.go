@@ -297,7 +297,7 @@ func methods(r *rank.Result, kb *knowledge.Base, ci citer) string {
 		site += " " + c
 	}
 	fmt.Fprintf(&b, "Shifts were taken as treatment minus control, with Welch standard errors from the group statistics. Each candidate change in N cycling was simulated on the site model %s, a compartment model of the N cycle solved exactly in 14N and 15N; a comparison with a stated time since the treatment began was evaluated at that time, a long-standing contrast at the new steady state. ", site)
-	fmt.Fprintf(&b, "The evidence for each candidate integrates the likelihood of the observed shifts over its magnitude prior (quadrature on %d nodes interpolated to %d points for single candidates, %d × %d nodes interpolated to %d × %d points for pairs) and over %d nuisance draws of isotope effects, source δ15N and site fluxes, draw 0 being the nominal site. ",
+	fmt.Fprintf(&b, "The evidence for each candidate integrates the likelihood of the observed shifts over its magnitude prior (quadrature on %d nodes interpolated to %d points for single candidates, %d × %d nodes interpolated to %d × %d points for pairs, more nodes for the share of uptake taken as nitrate) and over %d nuisance draws of isotope effects, source δ15N and site fluxes, draw 0 being the nominal site. ",
 		m.CoarseNodes, m.FinePoints, m.PairCoarseNodes, m.PairCoarseNodes, m.PairFinePoints, m.PairFinePoints, m.Draws)
 	fmt.Fprintf(&b, "Draws were weighted by how well their baseline reproduces the control's absolute values (allowed offset %s ‰, or %s on the ln scale for pools and fluxes). A structural model error σ_model = %s ‰ (%s on the ln scale) was added to each observation's variance. ",
 		trimFloat(m.LevelSDPermil), trimFloat(m.LevelSDLog), trimFloat(m.ModelErrorPermil), trimFloat(m.ModelErrorLog))
@@ -321,9 +321,35 @@ func methods(r *rank.Result, kb *knowledge.Base, ci citer) string {
 		{"posterior samples per leading explanation", strconv.Itoa(m.SamplesPerLeading)},
 		{"Gauss–Hermite nodes", strconv.Itoa(m.HermiteNodes)},
 	}
+	if ctx := r.Context; ctx.SoilPH != nil || ctx.Drainage != "" || ctx.PrecipMM != nil || ctx.Mycorrhizal != "" {
+		var parts []string
+		if ctx.SoilPH != nil {
+			parts = append(parts, "soil pH "+trimFloat(*ctx.SoilPH))
+		}
+		if ctx.Drainage != "" {
+			parts = append(parts, ctx.Drainage+" drainage")
+		}
+		if ctx.PrecipMM != nil {
+			parts = append(parts, trimFloat(*ctx.PrecipMM)+" mm/yr precipitation")
+		}
+		if ctx.Mycorrhizal != "" {
+			parts = append(parts, ctx.Mycorrhizal+" mycorrhizal hosts")
+		}
+		rows = append(rows, []string{"site context (for the priors)", strings.Join(parts, ", ")})
+	}
+	for _, f := range r.RulesFiles {
+		rows = append(rows, []string{"extra rules file", "`" + plain(f) + "`"})
+	}
 	writeTable(&b, []string{"setting", "value"}, "ll", rows)
-	fmt.Fprintf(&b, "To reproduce: `nlens explain %s --seed %d --draws %d --model-error %s` with nlens %s and the same knowledge base and rules (add any `--rules` files used).\n\n",
-		shellQuote(plain(r.StudyFile)), r.Seed, m.Draws, trimFloat(m.ModelErrorPermil), r.Version)
+	cmd := "nlens explain " + shellQuote(plain(r.StudyFile))
+	if r.Demo {
+		cmd = "nlens demo"
+	}
+	for _, f := range r.RulesFiles {
+		cmd += " --rules " + shellQuote(plain(f))
+	}
+	fmt.Fprintf(&b, "To reproduce: `%s --seed %d --draws %d --model-error %s` with nlens %s and the same knowledge base.\n\n",
+		cmd, r.Seed, m.Draws, trimFloat(m.ModelErrorPermil), r.Version)
 	return b.String()
 }
 
