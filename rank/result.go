@@ -21,10 +21,10 @@ type Result struct {
 	Context rules.Context
 	// RulesFiles are user rules files added with --rules; Demo marks a run
 	// of the embedded demo study (both set by the caller, for Methods).
-	RulesFiles []string
-	Demo       bool
-	Method     Method
-	Comparisons     []ComparisonResult
+	RulesFiles  []string
+	Demo        bool
+	Method      Method
+	Comparisons []ComparisonResult
 }
 
 // Method records the settings a reader needs to reproduce a run.
