@@ -46,7 +46,7 @@ study is in testdata/demo/ of the source tree. It takes the flags of explain:
 					return err
 				}
 				if opt.format == report.FormatTable {
-					fmt.Fprintf(e.stdout, "\nThis was the built-in demo (invented data). Your own study: nlens explain study.yaml\n")
+					fmt.Fprintf(e.stdout, "\nThis was the built-in demo (invented data).\nYour own study: nlens explain study.yaml\n")
 					if opt.out == "" {
 						fmt.Fprintf(e.stdout, "Full report (Markdown, BibTeX, figures): nlens demo --out report/\n")
 					}

@@ -147,7 +147,11 @@ func Observed(w io.Writer, st *study.Study) error {
 	if title == "" {
 		title = st.File
 	}
-	ew.printf("%s\nsite: %s (%s)\n", title, st.SiteRef, st.Site.ID)
+	site := st.SiteRef
+	if st.SiteRef != st.Site.ID {
+		site = fmt.Sprintf("%s (site %s)", st.SiteRef, st.Site.ID)
+	}
+	ew.printf("%s\nsite model: %s\n", title, site)
 	for _, c := range st.Comparisons {
 		ew.printf("\n%s: %s vs %s, %s\n\n", c.Name, c.Treatment, c.Control, when(c.Years))
 		if err := observedTable(ew, c.Observed); err != nil {

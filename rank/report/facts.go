@@ -92,9 +92,17 @@ func effectsTable(w io.Writer, kb *knowledge.Base) error {
 		if src == "" {
 			src = e.Status
 		}
-		rows = append(rows, []string{e.ID, strconv.FormatFloat(e.EpsilonPermil, 'g', 4, 64), fmtRange(e.RangePermil), e.Expressed, ratio, src})
+		id := e.ID
+		if e.Expressed == "intrinsic" {
+			id += " *"
+		}
+		rows = append(rows, []string{id, strconv.FormatFloat(e.EpsilonPermil, 'g', 4, 64), fmtRange(e.RangePermil), ratio, src})
 	}
-	return table(w, []string{"process", "ε", "range", "expressed", "ε18/ε15", "sources"}, "lrllrl", rows)
+	if err := wrappedTable(w, []string{"process", "ε", "range", "ε18/ε15", "sources"}, "lrlrl", rows, []int{0, 0, 0, 0, 24}); err != nil {
+		return err
+	}
+	_, err := fmt.Fprintf(w, "* intrinsic (culture) value; the others are as expressed in ecosystems\n")
+	return err
 }
 
 func sourcesTable(w io.Writer, kb *knowledge.Base) error {
@@ -107,7 +115,7 @@ func sourcesTable(w io.Writer, kb *knowledge.Base) error {
 		}
 		rows = append(rows, []string{s.ID, s.Pool, strconv.FormatFloat(s.D15NPermil, 'g', 4, 64), fmtRange(s.D15NRangePermil), d18, cites(kb, s.Refs)})
 	}
-	return table(w, []string{"source", "enters", "δ15N", "range", "δ18O", "sources"}, "llrlrl", rows)
+	return wrappedTable(w, []string{"source", "enters", "δ15N", "range", "δ18O", "sources"}, "llrlrl", rows, []int{0, 0, 0, 0, 0, 24})
 }
 
 func sitesTable(w io.Writer, kb *knowledge.Base) error {
@@ -121,22 +129,23 @@ func sitesTable(w io.Writer, kb *knowledge.Base) error {
 		}
 		rows = append(rows, []string{id, strings.Join(s.Pools, " "), s.Description})
 	}
-	return table(w, []string{"template", "pools", "description"}, "lll", rows)
+	return wrappedTable(w, []string{"template", "pools", "description"}, "lll", rows, []int{0, 24, 26})
 }
 
 func measurementsTable(w io.Writer, kb *knowledge.Base) error {
 	fmt.Fprintf(w, "Measurement catalogue (sd in ‰, or on the log scale for pools and fluxes)\n\n")
 	var rows [][]string
 	for _, m := range kb.Measurements {
-		rows = append(rows, []string{m.ID, m.Observable, strconv.FormatFloat(m.AnalyticalSD, 'g', 3, 64), strconv.FormatFloat(m.FieldSD, 'g', 3, 64), knowledge.CostLabel(m.Cost), m.Method})
+		rows = append(rows, []string{m.ID + "\n  → " + m.Observable, strconv.FormatFloat(m.AnalyticalSD, 'g', 3, 64), strconv.FormatFloat(m.FieldSD, 'g', 3, 64), knowledge.CostLabel(m.Cost), m.Method})
 	}
-	return table(w, []string{"measurement", "observable", "lab sd", "field sd", "cost", "method"}, "llrrll", rows)
+	return wrappedTable(w, []string{"measurement → observable", "lab sd", "field sd", "cost", "method"}, "lrrll", rows, []int{0, 0, 0, 0, 25})
 }
 
 func referencesList(w io.Writer, kb *knowledge.Base) error {
 	fmt.Fprintf(w, "References (%d)\n\n", len(kb.References))
 	for _, r := range kb.References {
-		fmt.Fprintf(w, "[%s] %s\n", r.Key, FullReference(r))
+		text := wrap(fmt.Sprintf("[%s] %s", r.Key, FullReference(r)), 76)
+		fmt.Fprintf(w, "%s\n", strings.ReplaceAll(text, "\n", "\n    "))
 	}
 	return nil
 }
