@@ -69,9 +69,10 @@ is depleted (α = 1 + ε/1000). f is the fraction of substrate REMAINING.`),
 				Source: "Mariotti et al. 1981 (Plant and Soil 62:413–430); exact forms as in Fry 2006, suppl. 7B",
 				Formula: []string{
 					"α = 1 + ε/1000; f = fraction of substrate remaining",
-					"residual:           δs = (δ0 + 1000)·f^(1/α − 1) − 1000        ≈ δ0 − ε·ln f",
-					"instant product:    δp = (δs + 1000)/α − 1000                  ≈ δs − ε",
-					"accumulated product: δacc = (δ0 + 1000)·(1 − f^(1/α))/(1 − f) − 1000 ≈ δ0 + ε·f·ln f/(1 − f)",
+					"residual:    δs   = (δ0 + 1000)·f^(1/α − 1) − 1000        ≈ δ0 − ε·ln f",
+					"instant:     δp   = (δs + 1000)/α − 1000                  ≈ δs − ε",
+					"accumulated: δacc = (δ0 + 1000)·(1 − f^(1/α))/(1 − f) − 1000",
+					"                                                  ≈ δ0 + ε·f·ln f/(1 − f)",
 				},
 			}
 			switch {

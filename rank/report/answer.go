@@ -4,6 +4,8 @@ import (
 	"encoding/json"
 	"io"
 	"strconv"
+	"strings"
+	"unicode/utf8"
 )
 
 // Answer is a quick calculation shown with its formula and source.
@@ -35,10 +37,16 @@ func WriteAnswer(w io.Writer, a Answer, format string) error {
 	}
 	ew := &errWriter{w: w}
 	ew.printf("%s\n\n", a.Title)
-	for _, f := range a.Formula {
-		ew.printf("  %s\n", f)
+	indent := func(text string) string {
+		if utf8.RuneCountInString(text) <= 76 {
+			return text
+		}
+		return strings.ReplaceAll(wrap(text, 76), "\n", "\n      ")
 	}
-	ew.printf("  Source: %s\n\n", a.Source)
+	for _, f := range a.Formula {
+		ew.printf("  %s\n", indent(f))
+	}
+	ew.printf("  %s\n\n", indent("Source: "+a.Source))
 	rows := func(qs []Quantity) [][]string {
 		var out [][]string
 		for _, q := range qs {
@@ -58,7 +66,7 @@ func WriteAnswer(w io.Writer, a Answer, format string) error {
 		return err
 	}
 	for _, n := range a.Notes {
-		ew.printf("\nNote: %s\n", n)
+		ew.printf("\n%s\n", wrap("Note: "+n, 78))
 	}
 	return ew.err
 }

@@ -106,14 +106,14 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 				if i >= opt.MaxMeasurements {
 					break
 				}
-				dec := 1
-				if m.Unit == "log-ratio" {
-					dec = 2
-				}
 				row := []string{shortMeasurement(m)}
 				for _, hi := range lead {
 					p := m.Predicted[c.Hypotheses[hi].ID]
-					row = append(row, pm(p.Mean, p.SD, dec))
+					if m.Unit == "log-ratio" {
+						row = append(row, plusSigned(p.Mean, 2)+"±"+signed(p.SD, 1))
+					} else {
+						row = append(row, pm(p.Mean, p.SD, 1))
+					}
 				}
 				rows = append(rows, row)
 			}
