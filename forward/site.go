@@ -20,6 +20,38 @@ var requiredPools = []string{"organic", "ammonium", "nitrate", "plant"}
 // Out is the To index of a transfer that leaves the ecosystem.
 const Out = -1
 
+// Limits on a site file's numbers. Beyond them a value is not a real site,
+// and within them every steady state that passes the condition check
+// (MaxCondition) stays far inside floating-point range: each positive rate
+// constant k = rate/pool is at least MinRateKgPerHaYr/MaxPoolKgPerHa =
+// 1e-15 per year, so ‖K⁻¹‖ ≤ MaxCondition/1e-15 = 1e26 years and the pools
+// stay below about 1e33 kg N/ha times the number of inputs.
+const (
+	// MaxPoolKgPerHa is the largest pool accepted. No ecosystem stores
+	// that much N: a 10 m peat at a bulk density of 0.1 g/cm³ with 2 % N
+	// holds 2e5 kg N/ha (hand computation).
+	MaxPoolKgPerHa = 1e6
+	// MinRateKgPerHaYr and MaxRateKgPerHaYr bound a positive input or
+	// transfer rate (0 is allowed). Gross N fluxes of the most active soils
+	// are of the order of 1e3 kg N/ha/yr (from memory), three orders of
+	// magnitude below the maximum; a flux of 1e-9 kg N/ha/yr (0.1 µg N/m²
+	// per century) is no flux at all, and write 0 for none.
+	MinRateKgPerHaYr = 1e-9
+	MaxRateKgPerHaYr = 1e6
+)
+
+// checkRate returns a message when a rate is not 0 and not within
+// MinRateKgPerHaYr–MaxRateKgPerHaYr.
+func checkRate(r float64) string {
+	switch {
+	case !(r >= 0) || math.IsInf(r, 0):
+		return fmt.Sprintf("rate must be a non-negative number of kg N/ha/yr, got %g", r)
+	case r != 0 && (r < MinRateKgPerHaYr || r > MaxRateKgPerHaYr):
+		return fmt.Sprintf("rate must be 0 or between %g and %g kg N/ha/yr, got %g", MinRateKgPerHaYr, MaxRateKgPerHaYr, r)
+	}
+	return ""
+}
+
 // Site is a validated site: pools, inputs and transfers with every isotope
 // effect resolved (from the file or from the knowledge base).
 type Site struct {
@@ -122,7 +154,14 @@ func LoadSite(idOrPath string, kb *knowledge.Base) (*Site, error) {
 
 // ParseSite decodes and validates a site file. Every problem is reported
 // with file, line and field.
-func ParseSite(file string, data []byte, kb *knowledge.Base) (*Site, error) {
+func ParseSite(file string, data []byte, kb *knowledge.Base) (site *Site, err error) {
+	defer func() {
+		// Bad input must never crash nlens (STYLE 11); a panic here is a bug,
+		// reported as an input error so that the user sees the file.
+		if r := recover(); r != nil {
+			site, err = nil, &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("nlens could not read this site file (internal error: %v); please report it with the file", r)}
+		}
+	}()
 	var f siteFile
 	doc, err := knowledge.Decode(file, data, &f)
 	if err != nil {
@@ -163,6 +202,9 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (*Site, error) {
 		case math.IsNaN(*v) || math.IsInf(*v, 0) || *v < 0:
 			bad(field, []any{"pools", name}, "pool size must be a non-negative number of kg N/ha, got %g", *v)
 			continue
+		case *v > MaxPoolKgPerHa:
+			bad(field, []any{"pools", name}, "pool size %g kg N/ha is more than any ecosystem holds (at most %g)", *v, MaxPoolKgPerHa)
+			continue
 		}
 		s.Pools = append(s.Pools, name)
 		s.PoolKg = append(s.PoolKg, *v)
@@ -172,7 +214,7 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (*Site, error) {
 	if f.NitrateOxygen != nil && f.NitrateOxygen.NitrificationD18O != nil {
 		s.NitrificationD18O = *f.NitrateOxygen.NitrificationD18O
 		s.NitrificationD18OFixed = true
-		if math.Abs(s.NitrificationD18O) > 100 {
+		if !(math.Abs(s.NitrificationD18O) <= 100) {
 			bad("nitrate_oxygen.nitrification_d18o", []any{"nitrate_oxygen", "nitrification_d18o"}, "δ18O %g ‰ is outside natural abundance", s.NitrificationD18O)
 		}
 	}
@@ -185,6 +227,9 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (*Site, error) {
 			return -2
 		}
 		i := s.PoolIndex(name)
+		if _, declared := f.Pools[name]; i < 0 && (declared && slices.Contains(PoolNames, name) || slices.Contains(requiredPools, name)) {
+			return -2 // a bad size or a missing required pool, reported under pools
+		}
 		if i < 0 {
 			want := "a defined pool"
 			if allowOut {
@@ -216,8 +261,8 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (*Site, error) {
 		in.To = pool(to, field("to"), path("to"), false)
 		if e.Rate == nil {
 			bad(field("rate"), []any{"inputs", i}, "missing rate (kg N/ha/yr)")
-		} else if !(*e.Rate >= 0) || math.IsInf(*e.Rate, 0) {
-			bad(field("rate"), path("rate"), "rate must be a non-negative number of kg N/ha/yr, got %g", *e.Rate)
+		} else if msg := checkRate(*e.Rate); msg != "" {
+			bad(field("rate"), path("rate"), "%s", msg)
 		} else {
 			in.RateKgPerHaYr = *e.Rate
 		}
@@ -236,6 +281,9 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (*Site, error) {
 			switch {
 			case e.D18O != nil:
 				in.D18O, in.D18OFixed = *e.D18O, true
+				if !(math.Abs(in.D18O) <= 100) {
+					bad(field("d18o"), path("d18o"), "δ18O %g ‰ is outside natural abundance (|δ| ≤ 100 ‰)", in.D18O)
+				}
 			case e.Source != "" && src.D18OPermil != nil:
 				in.D18O = *src.D18OPermil
 			default:
@@ -267,12 +315,14 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (*Site, error) {
 		}
 		if e.Rate == nil {
 			bad(field("rate"), []any{"transfers", i}, "missing rate (kg N/ha/yr)")
-		} else if !(*e.Rate >= 0) || math.IsInf(*e.Rate, 0) {
-			bad(field("rate"), path("rate"), "rate must be a non-negative number of kg N/ha/yr, got %g", *e.Rate)
+		} else if msg := checkRate(*e.Rate); msg != "" {
+			bad(field("rate"), path("rate"), "%s", msg)
 		} else {
 			t.RateKgPerHaYr = *e.Rate
 			if t.From >= 0 && s.PoolKg[t.From] == 0 && t.RateKgPerHaYr > 0 {
 				bad(field("rate"), path("rate"), "pool %q is empty at baseline but this transfer draws %g kg N/ha/yr from it", s.Pools[t.From], t.RateKgPerHaYr)
+			} else if t.From >= 0 && math.IsInf(t.RateKgPerHaYr/s.PoolKg[t.From], 0) {
+				bad(field("rate"), path("rate"), "%g kg N/ha/yr drawn from a pool of %g kg N/ha is a turnover too fast to compute", t.RateKgPerHaYr, s.PoolKg[t.From])
 			}
 		}
 		t.Epsilon = eff.EpsilonPermil
@@ -306,6 +356,14 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (*Site, error) {
 	}
 	if err := s.checkTopology(doc); err != nil {
 		return nil, err
+	}
+	// A site whose baseline steady state cannot be solved reliably is refused
+	// here, with its condition number, so that every command (check too)
+	// says so with the file and line.
+	p := s.Params()
+	var x State
+	if err := NewModel(s).Steady(&p, false, &x); err != nil {
+		return nil, doc.Errorf("transfers", []any{"transfers"}, "%v", err)
 	}
 	return s, nil
 }

@@ -185,10 +185,10 @@ func TestBadKnowledgeFiles(t *testing.T) {
 	tests := []struct {
 		name, file, old, new, want string
 	}{
-		{"unknown key", "sources.yaml", "    pool: ammonium\n    d15n: 0\n", "    pool: ammonium\n    d15m: 0\n", `sources.yaml:9: unknown key "d15m"`},
+		{"unknown key", "sources.yaml", "    pool: ammonium\n    d15n: 0\n", "    pool: ammonium\n    d15m: 0\n", `sources.yaml:9: sources[0].d15m: unknown key (keys here: id, label, pool, d15n, range, d18o, d18o_range, note, refs, status)`},
 		{"range outside", "sources.yaml", "    range: [-4, 4]\n", "    range: [1, 4]\n", "sources.yaml:10: sources[0].range: typical value 0 lies outside [1, 4]"},
 		{"unknown process", "effects.yaml", "  - id: mineralization\n", "  - id: mineralisation\n", `unknown process "mineralisation"`},
-		{"bad number", "measurements.yaml", "    analytical_sd: 0.2\n", "    analytical_sd: low\n", `measurements.yaml:16: expected a number, got "low"`},
+		{"bad number", "measurements.yaml", "    analytical_sd: 0.2\n", "    analytical_sd: low\n", `measurements.yaml:16: measurements[0].analytical_sd: expected a number, got "low"`},
 		{"missing reference", "sources.yaml", "refs: [bateman2007, usgs-nitrogen]", "refs: [bateman2007, nobody1999]", `reference "nobody1999" is not in references.yaml`},
 	}
 	for _, tt := range tests {

@@ -12,6 +12,11 @@ import (
 	"nlens/rank/report"
 )
 
+// maxChangeFactor bounds --change: six orders of magnitude either way, far
+// beyond any treatment effect (the candidates' prior spans 0.1–10, DESIGN
+// §4), and within it the changed model stays in floating-point range.
+const maxChangeFactor = 1e6
+
 type simulateOptions struct {
 	site       string
 	changes    []string
@@ -87,12 +92,23 @@ func runSimulate(e *env, opt simulateOptions) error {
 	if err != nil {
 		var ce *forward.ConditionError
 		if asCondition(err, &ce) {
+			// The baseline passed this check when the site was read, so the
+			// changed system failed it.
+			if years == nil && math.IsInf(ce.Cond, 1) {
+				return badf("after the change the %s system has no steady state (its matrix is singular: some N has no way out of the site or of a pool); give --years T for the state T years after the change", ce.System)
+			}
 			return err
 		}
 		return badInput{err}
 	}
+	if err := finiteState(sim); err != nil {
+		return err
+	}
 	for _, w := range sim.Warnings {
 		fmt.Fprintln(e.stderr, "warning:", w)
+	}
+	if names := undefinedAfterChange(sim); len(names) > 0 {
+		fmt.Fprintf(e.stderr, "warning: undefined after the change (no N left in the pool or flux, so no δ): %s; left out of the output\n", strings.Join(names, ", "))
 	}
 	ro := report.SimulationOptions{Format: opt.format, Description: words}
 	if opt.trajectory {
@@ -122,6 +138,9 @@ func parseChange(site *forward.Site, e *env, changes, adds []string) (forward.Ch
 		if err != nil || !(f >= 0) || math.IsInf(f, 0) {
 			return c, "", badf("--change %q: the factor must be a number ≥ 0, for example x3 or x0.5", s)
 		}
+		if f != 0 && (f < 1/maxChangeFactor || f > maxChangeFactor) {
+			return c, "", badf("--change %q: the factor must be 0 or between %g and %g", s, 1/maxChangeFactor, maxChangeFactor)
+		}
 		c.Factors = append(c.Factors, forward.Factor{Process: proc, Factor: f})
 		words = append(words, fmt.Sprintf("%s ×%s", proc, strconv.FormatFloat(f, 'g', 4, 64)))
 	}
@@ -134,6 +153,9 @@ func parseChange(site *forward.Site, e *env, changes, adds []string) (forward.Ch
 		rate, err := strconv.ParseFloat(rateText, 64)
 		if err != nil || !(rate >= 0) || math.IsInf(rate, 0) {
 			return c, "", badf("--add %q: the rate must be a number of kg N/ha/yr ≥ 0", s)
+		}
+		if rate != 0 && (rate < forward.MinRateKgPerHaYr || rate > forward.MaxRateKgPerHaYr) {
+			return c, "", badf("--add %q: the rate must be 0 or between %g and %g kg N/ha/yr, as in a site file", s, forward.MinRateKgPerHaYr, forward.MaxRateKgPerHaYr)
 		}
 		in, err := forward.SourceInput(site, e.kb, src, rate)
 		if err != nil {
@@ -153,4 +175,32 @@ func parseChange(site *forward.Site, e *env, changes, adds []string) (forward.Ch
 		return c, "no change", nil
 	}
 	return c, strings.Join(words, ", "), nil
+}
+
+// undefinedAfterChange lists the observables that have no finite value in
+// the changed state; the report leaves them out (JSON) or prints n/a
+// (table), and the user is told why.
+func undefinedAfterChange(sim *forward.Simulation) []string {
+	var names []string
+	for _, name := range sim.Site.DeltaNames() {
+		o, err := sim.Site.Observable(name)
+		if err != nil {
+			continue
+		}
+		if v := o.Value(&sim.Then, &sim.Changed); math.IsNaN(v) || math.IsInf(v, 0) {
+			names = append(names, name)
+		}
+	}
+	return names
+}
+
+// finiteState refuses a result whose changed pools are not finite numbers:
+// a change so extreme that the model leaves floating-point range.
+func finiteState(sim *forward.Simulation) error {
+	for i, name := range sim.Site.Pools {
+		if v := sim.Then.Total(i); math.IsNaN(v) || math.IsInf(v, 0) {
+			return badf("the change takes the %s pool beyond floating-point range; use a smaller change", name)
+		}
+	}
+	return nil
 }

@@ -35,7 +35,15 @@ var (
 // sample, group, observable and value (or d15n), optionally unit, depth_cm,
 // species and note. Every bad row is an error with its line; groups are
 // summarised by mean, sample sd and n.
-func ParseSamples(file string, data []byte, site *forward.Site, opt Options) ([]SampleGroup, []string, error) {
+func ParseSamples(file string, data []byte, site *forward.Site, opt Options) (rows []SampleGroup, warnings []string, err error) {
+	defer func() {
+		// Bad input must never crash nlens (STYLE 11); a panic here is a bug,
+		// reported as an input error so that the user sees the file.
+		if r := recover(); r != nil {
+			rows, warnings = nil, nil
+			err = &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("nlens could not read this samples file (internal error: %v); please report it with the file", r)}
+		}
+	}()
 	r := csv.NewReader(bytes.NewReader(data))
 	r.FieldsPerRecord = -1
 	r.TrimLeadingSpace = true
@@ -47,23 +55,33 @@ func ParseSamples(file string, data []byte, site *forward.Site, opt Options) ([]
 		}
 		return nil, nil, csvError(file, err)
 	}
+	headerLine, _ := r.FieldPos(0) // comment and blank lines may come first
 	col := map[string]int{}
 	for i, h := range header {
 		h = strings.ToLower(strings.TrimSpace(strings.TrimPrefix(h, "\ufeff")))
+		name := h
 		if h == "d15n" {
 			h = "value"
 		}
 		if _, dup := col[h]; dup {
-			return nil, nil, &knowledge.InputError{File: file, Line: 1, Field: h, Msg: "column appears twice in the header"}
+			msg := "column appears twice in the header"
+			if h == "value" {
+				msg = "the header has both value and d15n; give the δ15N values in one column"
+			}
+			return nil, nil, &knowledge.InputError{File: file, Line: headerLine, Field: name, Msg: msg}
 		}
 		if !slices.Contains(requiredColumns, h) && !slices.Contains(optionalColumns, h) && h != "value" {
-			return nil, nil, &knowledge.InputError{File: file, Line: 1, Field: h, Msg: fmt.Sprintf("unknown column %q (columns: sample, group, observable, value or d15n, unit, depth_cm, species, note)", h)}
+			msg := fmt.Sprintf("unknown column %q (columns: sample, group, observable, value or d15n, unit, depth_cm, species, note)", name)
+			if len(header) == 1 && strings.ContainsAny(name, ";\t") {
+				msg = fmt.Sprintf("unknown column %q: the columns must be separated by commas, not semicolons or tabs", name)
+			}
+			return nil, nil, &knowledge.InputError{File: file, Line: headerLine, Field: name, Msg: msg}
 		}
 		col[h] = i
 	}
 	for _, c := range append(requiredColumns, "value") {
 		if _, ok := col[c]; !ok {
-			return nil, nil, &knowledge.InputError{File: file, Line: 1, Field: c, Msg: fmt.Sprintf("missing column %q (the header needs sample, group, observable and value or d15n)", c)}
+			return nil, nil, &knowledge.InputError{File: file, Line: headerLine, Field: c, Msg: fmt.Sprintf("missing column %q (the header needs sample, group, observable and value or d15n)", c)}
 		}
 	}
 	type key struct{ group, obs string }
@@ -82,14 +100,16 @@ func ParseSamples(file string, data []byte, site *forward.Site, opt Options) ([]
 		if errors.Is(err, io.EOF) {
 			break
 		}
-		line, _ := r.FieldPos(0)
 		if err != nil {
+			// r.FieldPos must not be called here: after a malformed row it
+			// may know no field and panic. The ParseError has the line.
 			errs = append(errs, csvError(file, err))
 			if len(errs) > 20 {
 				break
 			}
 			continue
 		}
+		line, _ := r.FieldPos(0)
 		get := func(c string) string {
 			if i, ok := col[c]; ok && i < len(rec) {
 				return strings.TrimSpace(rec[i])
@@ -99,7 +119,7 @@ func ParseSamples(file string, data []byte, site *forward.Site, opt Options) ([]
 		bad := func(field, format string, args ...any) {
 			errs = append(errs, &knowledge.InputError{File: file, Line: line, Field: field, Msg: fmt.Sprintf(format, args...)})
 		}
-		if len(rec) < len(header) {
+		if len(rec) != len(header) {
 			bad("", "expected %d fields like the header, got %d", len(header), len(rec))
 			continue
 		}
@@ -122,12 +142,8 @@ func ParseSamples(file string, data []byte, site *forward.Site, opt Options) ([]
 			continue
 		}
 		logRatio := strings.HasPrefix(obs, "pool:") || strings.HasPrefix(obs, "flux:")
-		if logRatio && !(v > 0) {
-			bad("value", "a pool size or flux must be positive, got %g", v)
-			continue
-		}
-		if !logRatio && obs != "nitrate-d18o" && obs != "n2o-sp" && math.Abs(v) > MaxNaturalPermil && !opt.AllowEnriched {
-			bad("value", "δ15N %g ‰ is beyond natural abundance (|δ| > %d ‰); use --allow-enriched for a tracer study", v, MaxNaturalPermil)
+		if msg := valueProblem(obs, v, opt); msg != "" {
+			bad("value", "%s", msg)
 			continue
 		}
 		unit := strings.ToLower(get("unit"))
@@ -173,12 +189,19 @@ func ParseSamples(file string, data []byte, site *forward.Site, opt Options) ([]
 			continue
 		}
 		mean, sd := stat.MeanStdDev(a.values, nil)
+		if math.IsNaN(mean) || math.IsInf(mean, 0) || math.IsNaN(sd) || math.IsInf(sd, 0) {
+			errs = append(errs, &knowledge.InputError{File: file, Line: a.line, Field: "value", Msg: fmt.Sprintf("the mean or sd of %s in group %q is beyond floating-point range; check the values", k.obs, k.group)})
+			continue
+		}
 		out = append(out, SampleGroup{Group: k.group, Observable: k.obs, Stat: Stat{Mean: mean, SD: sd, N: len(a.values)}, Line: a.line})
 		if len(a.depths) > 1 {
 			warns = append(warns, fmt.Sprintf("%s:%d: group %q pools %s samples from %d different depths as replicates", file, a.line, k.group, k.obs, len(a.depths)))
 		}
 	}
-	return out, warns, errs.Err()
+	if len(errs) > 0 {
+		return nil, nil, errs
+	}
+	return out, warns, nil
 }
 
 func isDepthRange(s string) bool {

@@ -146,7 +146,14 @@ func Load(path string, kb *knowledge.Base, opt Options) (*Study, error) {
 
 // Parse reads a study from its text. readFile resolves the site file and
 // samples CSV named in the study (relative to the study file's directory).
-func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile func(string) ([]byte, error)) (*Study, error) {
+func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile func(string) ([]byte, error)) (st *Study, err error) {
+	defer func() {
+		// Bad input must never crash nlens (STYLE 11); a panic here is a bug,
+		// reported as an input error so that the user sees the file.
+		if r := recover(); r != nil {
+			st, err = nil, &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("nlens could not read this study (internal error: %v); please report it with the file", r)}
+		}
+	}()
 	var f studyFile
 	doc, err := knowledge.Decode(file, data, &f)
 	if err != nil {
@@ -156,7 +163,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 	bad := func(field string, path []any, format string, args ...any) {
 		errs = append(errs, doc.Errorf(field, path, format, args...))
 	}
-	st := &Study{File: file, Title: f.Title}
+	st = &Study{File: file, Title: f.Title}
 	dir := filepath.Dir(file)
 
 	// Site and context.
@@ -246,6 +253,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 		}
 	}
 	// Groups from the samples CSV.
+	samplesUnread := false // then groups it would define are not reported missing
 	if f.Samples != "" {
 		path := f.Samples
 		if !filepath.IsAbs(path) {
@@ -254,6 +262,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 		cdata, err := readFile(path)
 		if err != nil {
 			bad("samples", []any{"samples"}, "cannot read samples file %s: %v", path, unwrapPathError(err))
+			samplesUnread = true
 		} else {
 			rows, warns, err := ParseSamples(path, cdata, st.Site, opt)
 			if err != nil {
@@ -295,6 +304,8 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 			case role.name == "":
 				bad(field(role.key), path(), "missing %s group", role.key)
 				ok = false
+			case groups[role.name] == nil && samplesUnread:
+				ok = false
 			case groups[role.name] == nil:
 				bad(field(role.key), path(role.key), "group %q is not defined (groups: %s)", role.name, strings.Join(sortedKeys(groups), ", "))
 				ok = false
@@ -328,11 +339,17 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 				continue
 			}
 			a := Addition{Source: ae.Source, RateKgPerHaYr: *ae.Rate, D15N: ae.D15N, D18O: ae.D18O}
-			if a.D15N != nil && (math.IsNaN(*a.D15N) || (math.Abs(*a.D15N) > MaxNaturalPermil && !opt.AllowEnriched)) {
-				bad(af("d15n"), ap("d15n"), "δ15N %g ‰ is beyond natural abundance (|δ| > %d ‰); use --allow-enriched for a tracer study", *a.D15N, MaxNaturalPermil)
+			if a.D15N != nil {
+				if msg := deltaProblem("δ15N", *a.D15N, true, opt); msg != "" {
+					bad(af("d15n"), ap("d15n"), "%s", msg)
+				}
 			}
-			if a.D18O != nil && src.D18OPermil == nil {
-				bad(af("d18o"), ap("d18o"), "δ18O applies only to nitrate sources; %q enters %s", ae.Source, src.Pool)
+			if a.D18O != nil {
+				if src.D18OPermil == nil {
+					bad(af("d18o"), ap("d18o"), "δ18O applies only to nitrate sources; %q enters %s", ae.Source, src.Pool)
+				} else if msg := deltaProblem("δ18O", *a.D18O, true, opt); msg != "" {
+					bad(af("d18o"), ap("d18o"), "%s", msg)
+				}
 			}
 			c.Additions = append(c.Additions, a)
 		}
@@ -343,7 +360,12 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 				if !both {
 					continue
 				}
-				c.Observed = append(c.Observed, observe(obs, ctl[obs].Stat, t.Stat))
+				o := observe(obs, ctl[obs].Stat, t.Stat)
+				if math.IsNaN(o.Shift) || math.IsInf(o.Shift, 0) || math.IsNaN(o.SE) || math.IsInf(o.SE, 0) {
+					bad(field("treatment"), path("treatment"), "the shift of %s between groups %q and %q or its standard error is beyond floating-point range; check their means and sds", obs, ce.Control, ce.Treatment)
+					continue
+				}
+				c.Observed = append(c.Observed, o)
 			}
 			if len(c.Observed) == 0 {
 				bad(field("treatment"), path("treatment"), "groups %q and %q share no observable, so there is no shift to explain", ce.Control, ce.Treatment)
@@ -361,21 +383,24 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 // freedom.
 func observe(obs string, c, t Stat) Observed {
 	o := Observed{Observable: obs, Control: c, Treatment: t}
-	vc, vt := c.SD*c.SD/float64(c.N), t.SD*t.SD/float64(t.N)
+	sc, st := c.SD, t.SD
 	o.LogRatio = strings.HasPrefix(obs, "pool:") || strings.HasPrefix(obs, "flux:")
 	if o.LogRatio {
-		o.Shift = math.Log(t.Mean / c.Mean)
-		vc /= c.Mean * c.Mean
-		vt /= t.Mean * t.Mean
+		o.Shift = math.Log(t.Mean) - math.Log(c.Mean)
+		sc /= c.Mean
+		st /= t.Mean
 	} else {
 		o.Shift = t.Mean - c.Mean
 	}
+	vc, vt := sc*sc/float64(c.N), st*st/float64(t.N)
 	o.SE = math.Sqrt(vc + vt)
-	den := vc*vc/float64(c.N-1) + vt*vt/float64(t.N-1)
-	if den > 0 {
-		o.DF = (vc + vt) * (vc + vt) / den
+	// Welch–Satterthwaite, (vc+vt)²/(vc²/(nc−1) + vt²/(nt−1)), written with
+	// the shares of the variance so that no square overflows.
+	if v := vc + vt; v > 0 {
+		a, b := vc/v, vt/v
+		o.DF = 1 / (a*a/float64(c.N-1) + b*b/float64(t.N-1))
 	} else {
-		o.DF = float64(c.N + t.N - 2)
+		o.DF = float64(c.N) + float64(t.N) - 2
 	}
 	return o
 }
@@ -396,18 +421,54 @@ func checkObservable(site *forward.Site, obs string) string {
 
 // checkStat validates one group's summary.
 func checkStat(obs string, s Stat, opt Options) string {
-	logRatio := strings.HasPrefix(obs, "pool:") || strings.HasPrefix(obs, "flux:")
 	switch {
 	case math.IsNaN(s.Mean) || math.IsInf(s.Mean, 0):
 		return "mean must be a finite number"
-	case logRatio && !(s.Mean > 0):
-		return fmt.Sprintf("a pool size or flux must be positive, got mean %g", s.Mean)
-	case !logRatio && obs != "nitrate-d18o" && obs != "n2o-sp" && math.Abs(s.Mean) > MaxNaturalPermil && !opt.AllowEnriched:
-		return fmt.Sprintf("δ15N %g ‰ is beyond natural abundance (|δ| > %d ‰); use --allow-enriched for a tracer study", s.Mean, MaxNaturalPermil)
+	}
+	if msg := valueProblem(obs, s.Mean, opt); msg != "" {
+		return msg
+	}
+	switch {
 	case !(s.SD >= 0) || math.IsInf(s.SD, 0):
 		return fmt.Sprintf("sd must be a number ≥ 0, got %g", s.SD)
 	case s.N < 2:
 		return fmt.Sprintf("n must be at least 2 to estimate a standard error, got %d", s.N)
+	}
+	return ""
+}
+
+// valueProblem returns a message when a finite value of an observable is
+// impossible or, without --allow-enriched, beyond natural abundance: pool
+// sizes and fluxes must be positive; a δ15N (or δ18O of nitrate) below
+// −1000 ‰ would be a negative isotope ratio; |δ15N| above
+// MaxNaturalPermil needs AllowEnriched. The N2O site preference, a
+// difference of two δ values, is not checked.
+func valueProblem(obs string, v float64, opt Options) string {
+	switch {
+	case strings.HasPrefix(obs, "pool:") || strings.HasPrefix(obs, "flux:"):
+		if !(v > 0) {
+			return fmt.Sprintf("a pool size or flux must be positive, got %g", v)
+		}
+	case obs == "n2o-sp":
+	case obs == "nitrate-d18o":
+		return deltaProblem("δ18O", v, false, opt)
+	default:
+		return deltaProblem("δ15N", v, true, opt)
+	}
+	return ""
+}
+
+// deltaProblem returns a message when a δ value (‰) is not a finite number,
+// is below −1000 ‰ (a negative isotope ratio) or, when natural is set and
+// the study is not a tracer study, beyond natural abundance.
+func deltaProblem(name string, v float64, natural bool, opt Options) string {
+	switch {
+	case math.IsNaN(v) || math.IsInf(v, 0):
+		return fmt.Sprintf("%s must be a finite number of ‰, got %g", name, v)
+	case v < -1000:
+		return fmt.Sprintf("%s %g ‰ is below −1000 ‰, which would be a negative isotope ratio", name, v)
+	case natural && math.Abs(v) > MaxNaturalPermil && !opt.AllowEnriched:
+		return fmt.Sprintf("%s %g ‰ is beyond natural abundance (|δ| > %d ‰); use --allow-enriched for a tracer study", name, v, MaxNaturalPermil)
 	}
 	return ""
 }
