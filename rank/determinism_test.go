@@ -32,6 +32,27 @@ func TestDeterminism(t *testing.T) {
 	if d := run(8, 2); reflect.DeepEqual(a.Comparisons[0].Hypotheses, d.Comparisons[0].Hypotheses) {
 		t.Error("a different seed gave identical posteriors: the draws do not depend on the seed")
 	}
+	// Several comparisons run side by side: still identical to serial, and
+	// each comparison's result does not depend on its neighbours' scheduling.
+	many := *st
+	many.Comparisons = nil
+	for i := range 3 {
+		c := st.Comparisons[0]
+		c.Name = string(rune('a' + i))
+		c.Observed = append([]study.Observed(nil), c.Observed...)
+		c.Observed[0].Shift += float64(i)
+		many.Comparisons = append(many.Comparisons, c)
+	}
+	runMany := func(workers int) *Result {
+		r, err := Explain(context.Background(), &many, kb, defaultSet(t), Options{Seed: 7, Draws: 12, Workers: workers})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return r
+	}
+	if !reflect.DeepEqual(runMany(1), runMany(2)) {
+		t.Error("a three-comparison study gave different results on one and two workers")
+	}
 }
 
 // Posteriors are probabilities: they sum to one over the hypotheses and

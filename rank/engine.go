@@ -91,15 +91,20 @@ func (e *engine) siteIsCertain() bool {
 	return !(e.needO && !s.NitrificationD18OFixed)
 }
 
-// drawsFor returns how many draws a hypothesis needs: all of them, or only
-// the nominal one when the site is certain and no knob draws a source δ.
+// drawsFor returns how many draws a hypothesis uses: only the nominal one
+// when the site is certain and no knob draws a source δ; otherwise all of
+// them, at most pairDraws for a pair.
 func (e *engine) drawsFor(knobs []*knob) int {
+	n := len(e.draws)
+	if len(knobs) > 1 {
+		n = min(n, pairDraws)
+	}
 	if !e.siteCertain {
-		return len(e.draws)
+		return n
 	}
 	for _, k := range knobs {
 		if k.kind == rules.KnobSource {
-			return len(e.draws)
+			return n
 		}
 	}
 	return 1

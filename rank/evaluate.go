@@ -51,8 +51,13 @@ func (s *scored) fineTheta(f int, theta []float64) []float64 {
 func (e *engine) evaluate(w *worker, id string, knobs []*knob) *scored {
 	s := &scored{id: id, knobs: knobs, nd: e.drawsFor(knobs), no: len(e.obs)}
 	s.logw = e.logw
-	if s.nd == 1 {
-		s.logw = []float64{0}
+	if s.nd < len(e.draws) {
+		// The first nd draws, their weights renormalised among themselves.
+		s.logw = make([]float64, s.nd)
+		lz := logSumExp(e.logw[:s.nd])
+		for d := range s.nd {
+			s.logw[d] = e.logw[d] - lz
+		}
 	}
 	for _, k := range knobs {
 		s.nc = append(s.nc, len(k.ax.nodes))

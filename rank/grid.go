@@ -21,7 +21,7 @@ import (
 const (
 	coarse1        = 11
 	fine1          = 121
-	coarse2        = 8
+	coarse2        = 7
 	fine2          = 41
 	coarseUniform1 = 21
 	coarseUniform2 = 15
