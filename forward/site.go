@@ -155,13 +155,7 @@ func LoadSite(idOrPath string, kb *knowledge.Base) (*Site, error) {
 // ParseSite decodes and validates a site file. Every problem is reported
 // with file, line and field.
 func ParseSite(file string, data []byte, kb *knowledge.Base) (site *Site, err error) {
-	defer func() {
-		// Bad input must never crash nlens (STYLE 11); a panic here is a bug,
-		// reported as an input error so that the user sees the file.
-		if r := recover(); r != nil {
-			site, err = nil, &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("nlens could not read this site file (internal error: %v); please report it with the file", r)}
-		}
-	}()
+	defer knowledge.Recover(file, "site file", &err)
 	var f siteFile
 	doc, err := knowledge.Decode(file, data, &f)
 	if err != nil {

@@ -600,3 +600,35 @@ func (d *Doc) Errorf(field string, path []any, format string, args ...any) *Inpu
 	}
 	return &InputError{File: file, Line: d.Line(path...), Field: field, Msg: fmt.Sprintf(format, args...)}
 }
+
+// Flatten collects every *InputError in err's tree (InputErrors, joined or
+// wrapped errors), in order.
+func Flatten(err error) []*InputError {
+	var out []*InputError
+	var walk func(error)
+	walk = func(err error) {
+		var ie *InputError
+		switch x := err.(type) {
+		case nil:
+		case interface{ Unwrap() []error }:
+			for _, e := range x.Unwrap() {
+				walk(e)
+			}
+		default:
+			if errors.As(err, &ie) {
+				out = append(out, ie)
+			}
+		}
+	}
+	walk(err)
+	return out
+}
+
+// Recover, deferred at the boundary of a parser, turns a panic while
+// reading file into an InputError: bad input must never crash nlens, and
+// the user should learn which file to send with the report.
+func Recover(file, what string, err *error) {
+	if r := recover(); r != nil {
+		*err = &InputError{File: file, Line: 1, Msg: fmt.Sprintf("nlens could not read this %s (internal error: %v); please report it with the file", what, r)}
+	}
+}

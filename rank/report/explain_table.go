@@ -63,23 +63,7 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 		lead := leadingIndex(c)
 		if len(lead) > 0 {
 			ew.printf("\nPredicted shifts under the leading explanations (mean ± sd)\n")
-			headers := []string{"observable", "observed"}
-			for _, i := range lead {
-				headers = append(headers, "#"+strconv.Itoa(i+1))
-			}
-			rows = rows[:0]
-			for _, o := range c.Observed {
-				dec := 1
-				if o.LogRatio {
-					dec = 2
-				}
-				row := []string{o.Observable, pm(o.Shift, o.SE, dec)}
-				for _, i := range lead {
-					m := c.Hypotheses[i].Predicted[o.Observable]
-					row = append(row, pm(m.Mean, m.SD, dec))
-				}
-				rows = append(rows, row)
-			}
+			headers, rows := predictionTable(c, lead, 1)
 			if err := table(ew, headers, "l"+strings.Repeat("r", len(headers)-1), rows); err != nil {
 				return err
 			}
@@ -231,4 +215,28 @@ func pm(mean, sd float64, dec int) string {
 
 func shortMeasurement(m rank.Measurement) string {
 	return m.ID
+}
+
+// predictionTable lays out the observed shifts (± SE) beside each leading
+// hypothesis's predicted shift (mean ± sd), with dec decimals for δ values
+// and one more for log ratios.
+func predictionTable(c rank.ComparisonResult, lead []int, dec int) ([]string, [][]string) {
+	headers := []string{"observable", "observed"}
+	for _, i := range lead {
+		headers = append(headers, "#"+strconv.Itoa(i+1))
+	}
+	var rows [][]string
+	for _, o := range c.Observed {
+		d := dec
+		if o.LogRatio {
+			d++
+		}
+		row := []string{o.Observable, pm(o.Shift, o.SE, d)}
+		for _, i := range lead {
+			m := c.Hypotheses[i].Predicted[o.Observable]
+			row = append(row, pm(m.Mean, m.SD, d))
+		}
+		rows = append(rows, row)
+	}
+	return headers, rows
 }

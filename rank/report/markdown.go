@@ -159,23 +159,7 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 	if len(lead) > 0 {
 		b.WriteString("\n")
 		fmt.Fprintf(b, "Predicted shifts under the leading explanations (posterior mean ± sd; observed ± SE):\n\n")
-		headers := []string{"observable", "observed"}
-		for _, i := range lead {
-			headers = append(headers, "#"+strconv.Itoa(i+1))
-		}
-		rows = rows[:0]
-		for _, o := range c.Observed {
-			dec := 2
-			if o.LogRatio {
-				dec = 3
-			}
-			row := []string{o.Observable, pm(o.Shift, o.SE, dec)}
-			for _, i := range lead {
-				m := c.Hypotheses[i].Predicted[o.Observable]
-				row = append(row, pm(m.Mean, m.SD, dec))
-			}
-			rows = append(rows, row)
-		}
+		headers, rows := predictionTable(c, lead, 2)
 		writeTable(b, headers, "l"+strings.Repeat("r", len(headers)-1), rows)
 	}
 

@@ -10,11 +10,10 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
-	"unicode"
-	"unicode/utf16"
 
 	"nlens/forward"
 	"nlens/knowledge"
+	"nlens/knowledge/inputtest"
 )
 
 // Fuzzing the study file and samples CSV parsers (issue 5, item 3).
@@ -150,7 +149,7 @@ func FuzzParseSamples(f *testing.F) {
 				t.Errorf("ParseSamples returned groups and an error: %v", err)
 			}
 			checkPositioned(t, err, map[string][]byte{fuzzCSVFile: data})
-			for _, e := range inputErrors(err) {
+			for _, e := range knowledge.Flatten(err) {
 				if e.Line == 0 {
 					t.Errorf("CSV error without a line: %v", e)
 				}
@@ -173,9 +172,9 @@ func checkPositioned(t *testing.T, err error, texts map[string][]byte) {
 	if !errors.As(err, &first) {
 		t.Fatalf("rejection is not a *knowledge.InputError: %T %v", err, err)
 	}
-	for _, e := range inputErrors(err) {
+	for _, e := range knowledge.Flatten(err) {
 		text, known := texts[e.File]
-		lines := lineCount(text)
+		lines := inputtest.LineCount(text)
 		switch {
 		case !known:
 			t.Errorf("error names file %q, which is none of the inputs: %v", e.File, e)
@@ -183,68 +182,10 @@ func checkPositioned(t *testing.T, err error, texts map[string][]byte) {
 			t.Errorf("error says nothing: %#v", e)
 		case e.Line < 0 || e.Line > lines+1:
 			t.Errorf("error line %d is outside the %d-line text of %s: %v", e.Line, lines, e.File, e)
-		case e.Line == 0 && !yamlBlank(text):
+		case e.Line == 0 && !inputtest.YAMLBlank(text):
 			t.Errorf("error has no line although %s has content: %v", e.File, e)
 		}
 	}
-}
-
-// inputErrors collects every *knowledge.InputError in err's tree.
-func inputErrors(err error) []*knowledge.InputError {
-	var out []*knowledge.InputError
-	var walk func(error)
-	walk = func(err error) {
-		var ie *knowledge.InputError
-		switch x := err.(type) {
-		case nil:
-		case interface{ Unwrap() []error }:
-			for _, e := range x.Unwrap() {
-				walk(e)
-			}
-		default:
-			if errors.As(err, &ie) {
-				out = append(out, ie)
-			}
-		}
-	}
-	walk(err)
-	return out
-}
-
-// lineCount bounds the number of lines of text: YAML also breaks lines at a
-// lone carriage return, NEL, LS and PS (YAML 1.1 §5.4), so each of those
-// counts as well as line feeds.
-func lineCount(text []byte) int {
-	n := 1 + bytes.Count(text, []byte("\n")) + bytes.Count(text, []byte("\r"))
-	for _, r := range []string{"\u0085", "\u2028", "\u2029"} {
-		n += bytes.Count(text, []byte(r))
-	}
-	return n
-}
-
-// yamlBlank reports whether data holds no YAML content: only byte-order
-// marks (U+FEFF), white space and comment lines. Text that starts with a
-// UTF-16 byte-order mark is read as UTF-16, as the YAML parser does.
-func yamlBlank(data []byte) bool {
-	text := strings.TrimPrefix(string(data), "\ufeff")
-	if len(data) >= 2 && (data[0] == 0xff && data[1] == 0xfe || data[0] == 0xfe && data[1] == 0xff) {
-		units := make([]uint16, (len(data)-2)/2)
-		for i := range units {
-			lo, hi := data[2+2*i], data[3+2*i]
-			if data[0] == 0xfe {
-				lo, hi = hi, lo
-			}
-			units[i] = uint16(lo) | uint16(hi)<<8
-		}
-		text = string(utf16.Decode(units))
-	}
-	for line := range strings.SplitSeq(text, "\n") {
-		line = strings.TrimFunc(line, func(r rune) bool { return unicode.IsSpace(r) || r == '\ufeff' })
-		if line != "" && !strings.HasPrefix(line, "#") {
-			return false
-		}
-	}
-	return true
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

@@ -36,14 +36,7 @@ var (
 // species and note. Every bad row is an error with its line; groups are
 // summarised by mean, sample sd and n.
 func ParseSamples(file string, data []byte, site *forward.Site, opt Options) (rows []SampleGroup, warnings []string, err error) {
-	defer func() {
-		// Bad input must never crash nlens (STYLE 11); a panic here is a bug,
-		// reported as an input error so that the user sees the file.
-		if r := recover(); r != nil {
-			rows, warnings = nil, nil
-			err = &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("nlens could not read this samples file (internal error: %v); please report it with the file", r)}
-		}
-	}()
+	defer knowledge.Recover(file, "samples file", &err)
 	r := csv.NewReader(bytes.NewReader(data))
 	r.FieldsPerRecord = -1
 	r.TrimLeadingSpace = true

@@ -147,13 +147,7 @@ func Load(path string, kb *knowledge.Base, opt Options) (*Study, error) {
 // Parse reads a study from its text. readFile resolves the site file and
 // samples CSV named in the study (relative to the study file's directory).
 func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile func(string) ([]byte, error)) (st *Study, err error) {
-	defer func() {
-		// Bad input must never crash nlens (STYLE 11); a panic here is a bug,
-		// reported as an input error so that the user sees the file.
-		if r := recover(); r != nil {
-			st, err = nil, &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("nlens could not read this study (internal error: %v); please report it with the file", r)}
-		}
-	}()
+	defer knowledge.Recover(file, "study", &err)
 	var f studyFile
 	doc, err := knowledge.Decode(file, data, &f)
 	if err != nil {
