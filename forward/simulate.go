@@ -196,7 +196,8 @@ func (m *Model) SettlingTime(p *Params, x0 *State, obs []Observable) (float64, e
 			if o.Kind == KindDelta18 && !withO {
 				continue
 			}
-			if math.Abs(o.Value(&x, p)-o.Value(&steady, p)) > SettleToleranceDelta {
+			// A NaN (a pool emptied by the change) never counts as settled.
+			if !(math.Abs(o.Value(&x, p)-o.Value(&steady, p)) <= SettleToleranceDelta) && !math.IsNaN(o.Value(&steady, p)) {
 				settled = false
 				break
 			}

@@ -353,11 +353,18 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 		hyps[i] = h
 	}
 	// Candidates indistinguishable from none are counted with it.
+	var quiet []string
 	for i := range hyps {
 		if hyps[i].Indistinguishable {
 			hyps[0].Posterior += hyps[i].Posterior
 			hyps[i].Posterior = 0
+			if !hyps[i].Pair {
+				quiet = append(quiet, hyps[i].ID)
+			}
 		}
+	}
+	if len(quiet) > 0 {
+		e.warnf("%s would not move the observed quantities beyond their noise anywhere in %s prior range, so the data cannot speak to %s; %s counted with none", strings.Join(quiet, ", "), map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1])
 	}
 	order := make([]int, len(hyps))
 	for i := range order {

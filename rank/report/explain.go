@@ -169,7 +169,7 @@ func Observed(w io.Writer, st *study.Study) error {
 		}
 	}
 	for _, wmsg := range st.Warnings {
-		ew.printf("warning: %s\n", wmsg)
+		ew.printf("%s\n", wrap("warning: "+wmsg, 78))
 	}
 	return ew.err
 }

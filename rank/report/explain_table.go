@@ -107,7 +107,7 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 			ew.printf("(shifts in ‰; pools and fluxes as ln ratio; %d replicates per group assumed)\n", c.ReplicatesAssumed)
 		}
 		for _, wm := range c.Warnings {
-			ew.printf("\nwarning: %s\n", wm)
+			ew.printf("\n%s\n", wrap("warning: "+wm, 78))
 		}
 	}
 	return ew.err

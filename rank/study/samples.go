@@ -173,6 +173,9 @@ func ParseSamples(file string, data []byte, site *forward.Site, opt Options) (ro
 	if len(errs) > 0 {
 		return nil, nil, errs
 	}
+	if len(order) == 0 {
+		return nil, nil, &knowledge.InputError{File: file, Line: 1, Msg: "the samples file has a header but no rows"}
+	}
 	var out []SampleGroup
 	var warns []string
 	for _, k := range order {
