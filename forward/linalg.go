@@ -101,7 +101,7 @@ func gemm(a, b, c blas64.General) {
 		blas64.Gemm(blas.NoTrans, blas.NoTrans, 1, a, b, 0, c)
 		return
 	}
-	ad, bd, cd := a.Data, b.Data, c.Data
+	ad, bd, cd := a.Data[:n*n], b.Data[:n*n], c.Data[:n*n]
 	for i := range n {
 		ci := cd[i*n : (i+1)*n]
 		clear(ci)
@@ -110,6 +110,7 @@ func gemm(a, b, c blas64.General) {
 				continue
 			}
 			bk := bd[k*n : (k+1)*n]
+			bk = bk[:len(ci)] // lets the compiler drop the bounds checks below
 			for j, v := range bk {
 				ci[j] += aik * v
 			}

@@ -50,7 +50,11 @@ func InformationGain(p []float64, samples [][]float64, noise float64) float64 {
 		var s float64
 		for _, mu := range ss {
 			z := (y - mu) / noise
-			s += math.Exp(-0.5*z*z - m)
+			// Terms below e^-40 of the largest change nothing in double
+			// precision once summed with it; skip their exp.
+			if d := -0.5*z*z - m; d > -40 {
+				s += math.Exp(d)
+			}
 		}
 		return m + math.Log(s/float64(len(ss))) - math.Log(noise) - 0.5*math.Log(2*math.Pi)
 	}

@@ -47,7 +47,7 @@ const (
 	// nominal included, reweighted among themselves): a pair's 2-D grid
 	// costs 49 nodes against 11 for a single, and its evidence needs the
 	// nuisance average less finely.
-	pairDraws = 24
+	pairDraws = 16
 	// noFitP is the fit-check probability below which a hypothesis does not fit.
 	noFitP = 0.01
 	// indistinguishableSignal: a candidate whose predictions never depart
