@@ -214,14 +214,17 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 		ctx.Mycorrhizal = se.Mycorrhizal
 	}
 
-	// Groups from the study file.
+	// Groups from the study file; badGroups had an entry refused, so a
+	// missing shared observable is a consequence, not a second error.
 	groups := map[string]map[string]groupStat{}
+	badGroups := map[string]bool{}
 	for _, g := range sortedKeys(f.Groups) {
 		if g == "" {
 			bad("groups", []any{"groups"}, "a group needs a name")
 			continue
 		}
 		groups[g] = map[string]groupStat{}
+		nBad := len(errs)
 		for _, obs := range sortedKeys(f.Groups[g]) {
 			field := fmt.Sprintf("groups.%s.%s", g, obs)
 			path := []any{"groups", g, obs}
@@ -244,6 +247,9 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 				continue
 			}
 			groups[g][obs] = groupStat{s, file, doc.Line(path...)}
+		}
+		if len(errs) > nBad {
+			badGroups[g] = true
 		}
 	}
 	// Groups from the samples CSV.
@@ -361,7 +367,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 				}
 				c.Observed = append(c.Observed, o)
 			}
-			if len(c.Observed) == 0 {
+			if len(c.Observed) == 0 && !badGroups[ce.Control] && !badGroups[ce.Treatment] {
 				bad(field("treatment"), path("treatment"), "groups %q and %q share no observable, so there is no shift to explain", ce.Control, ce.Treatment)
 			}
 		}
