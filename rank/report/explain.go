@@ -153,7 +153,7 @@ func Observed(w io.Writer, st *study.Study) error {
 	}
 	ew.printf("%s\nsite model: %s\n", title, site)
 	for _, c := range st.Comparisons {
-		ew.printf("\n%s (treatment %q, control %q), %s\n\n", c.Name, c.Treatment, c.Control, when(c.Years))
+		ew.printf("\n%s\n\n", wrap(fmt.Sprintf("%s (treatment %q, control %q), %s", c.Name, c.Treatment, c.Control, when(c.Years)), 78))
 		if err := observedTable(ew, c.Observed); err != nil {
 			return err
 		}
