@@ -60,7 +60,7 @@ func BenchmarkAdvance(b *testing.B) {
 
 // BenchmarkAdvanceWithOxygen: the same with nitrate oxygen.
 func BenchmarkAdvanceWithOxygen(b *testing.B) {
-	m, p, x0 := benchSite(b)
+	m, p, _ := benchSite(b)
 	var xo State
 	if err := m.Steady(&p, true, &xo); err != nil {
 		b.Fatal(err)
@@ -73,7 +73,6 @@ func BenchmarkAdvanceWithOxygen(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
-	_ = x0
 }
 
 // BenchmarkTrajectory50: 50 evenly spaced times (one exponential, 50

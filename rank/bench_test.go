@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"testing"
 
-	"nlens/forward"
 	"nlens/knowledge"
 	"nlens/rank/study"
 	"nlens/rules"
@@ -74,14 +73,13 @@ func BenchmarkEvidenceOneCandidate(b *testing.B) {
 	if err := e.setup(w, 0); err != nil {
 		b.Fatal(err)
 	}
-	knobs, why := e.compile(set.Candidate("denitrification"))
-	if knobs == nil {
+	k, why := e.compile(set.Candidate("denitrification"), false)
+	if k == nil {
 		b.Fatal(why)
 	}
+	knobs := []*knob{k}
 	b.ReportAllocs()
 	for b.Loop() {
 		e.evaluate(w, "denitrification", knobs)
 	}
 }
-
-var _ = forward.Out

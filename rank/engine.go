@@ -114,9 +114,10 @@ func (e *engine) warnf(format string, args ...any) {
 	e.warnings = append(e.warnings, fmt.Sprintf(format, args...))
 }
 
-// compile turns a candidate into knobs for this site, or says why it cannot
-// be tested here.
-func (e *engine) compile(c *rules.Candidate) ([]*knob, string) {
+// compile turns a candidate into a knob for this site (with the quadrature
+// of a single candidate, or of one axis of a pair), or says why it cannot be
+// tested here.
+func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 	k := &knob{cand: c, kind: c.Knob.Kind, procs: c.Knob.Processes, source: c.Source}
 	s := e.site
 	for _, n := range c.Needs {
@@ -136,10 +137,8 @@ func (e *engine) compile(c *rules.Candidate) ([]*knob, string) {
 		if !slices.ContainsFunc(k.procs, func(p string) bool { return hasProcess(s, p) }) {
 			return nil, fmt.Sprintf("the site has no %s transfer", strings.Join(k.procs, " or "))
 		}
-		k.ax = newAxis(c.Magnitude, nodesFor(c.Magnitude, false), fine1)
 		k.baseline = 1
 	case rules.KnobNitrateShare:
-		k.ax = newAxis(c.Magnitude, nodesFor(c.Magnitude, false), fine1)
 		p := s.Params()
 		k.baseline = p.NitrateShare(s)
 	case rules.KnobSource:
@@ -148,16 +147,21 @@ func (e *engine) compile(c *rules.Candidate) ([]*knob, string) {
 		if k.pool < 0 {
 			return nil, fmt.Sprintf("the site has no %s pool for this source", src.Pool)
 		}
-		k.ax = newAxis(c.Magnitude, nodesFor(c.Magnitude, false), fine1)
 		for _, a := range e.cmp.Additions {
 			if a.Source == c.Source {
-				k.ax = fixedAxis(a.RateKgPerHaYr, c.Magnitude.Unit)
+				k.ax = fixedAxis(a.RateKgPerHaYr)
+				return k, ""
 			}
 		}
 	default:
 		return nil, ""
 	}
-	return []*knob{k}, ""
+	fine := fine1
+	if pair {
+		fine = fine2
+	}
+	k.ax = newAxis(c.Magnitude, nodesFor(c.Magnitude, pair), fine)
+	return k, ""
 }
 
 func hasProcess(s *forward.Site, proc string) bool {

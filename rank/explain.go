@@ -202,28 +202,28 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 
 	// Singles.
 	var singles []*rules.Candidate
-	var compiled [][]*knob
+	var compiled []*knob
 	for i := range set.Candidates {
 		c := &set.Candidates[i]
 		if c.ID == rules.None {
 			continue
 		}
-		ks, why := e.compile(c)
-		if ks == nil {
+		k, why := e.compile(c, false)
+		if k == nil {
 			if why != "" {
 				e.warnf("%s not tested: %s", c.ID, why)
 			}
 			continue
 		}
 		singles = append(singles, c)
-		compiled = append(compiled, ks)
+		compiled = append(compiled, k)
 	}
 	scores := make([]*scored, len(singles))
 	parallel(len(singles), opt.Workers, st.Site, func(i int, w *worker) {
 		if ctx.Err() != nil {
 			return
 		}
-		scores[i] = e.evaluate(w, singles[i].ID, compiled[i])
+		scores[i] = e.evaluate(w, singles[i].ID, []*knob{compiled[i]})
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
@@ -280,11 +280,9 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 			return
 		}
 		a, b := jobs[i].a, jobs[i].b
-		ka, _ := e.compile(a.cands[0])
-		kbb, _ := e.compile(b.cands[0])
-		ka[0].ax = reaxis(ka[0].ax, a.cands[0].Magnitude)
-		kbb[0].ax = reaxis(kbb[0].ax, b.cands[0].Magnitude)
-		knobs := []*knob{ka[0], kbb[0]}
+		ka, _ := e.compile(a.cands[0], true)
+		kbb, _ := e.compile(b.cands[0], true)
+		knobs := []*knob{ka, kbb}
 		sort.SliceStable(knobs, func(x, y int) bool { return knobOrder[knobs[x].kind] < knobOrder[knobs[y].kind] })
 		pairScores[i] = e.evaluate(w, a.cands[0].ID+"+"+b.cands[0].ID, knobs)
 		prog.add(1)
@@ -413,15 +411,6 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 	cr.Warnings = e.warnings
 	prog.add(4)
 	return cr, nil
-}
-
-// reaxis returns the axis a knob uses inside a pair: a declared addition
-// stays fixed; otherwise the coarser pair grid.
-func reaxis(a axis, m rules.Magnitude) axis {
-	if a.fixed {
-		return a
-	}
-	return newAxis(m, nodesFor(m, true), fine2)
 }
 
 func uniq(s []string) []string {

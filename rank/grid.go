@@ -79,7 +79,7 @@ func newAxis(m rules.Magnitude, nc, nf int) axis {
 }
 
 // fixedAxis is a magnitude known exactly.
-func fixedAxis(v float64, unit string) axis {
+func fixedAxis(v float64) axis {
 	return axis{prior: "fixed", lo: v, hi: v, nodes: []float64{v}, fine: []float64{v}, w: [][]float64{{1}}, fixed: true, fixedValue: v}
 }
 

@@ -6,7 +6,6 @@ import (
 
 	"nlens/knowledge"
 	"nlens/rank/study"
-	"nlens/rules"
 )
 
 // The spline carries forward-model predictions from the coarse nodes to the
@@ -30,14 +29,11 @@ func TestSplineAccuracy(t *testing.T) {
 	check := func(ids []string, tol float64) {
 		var knobs []*knob
 		for _, id := range ids {
-			ks, why := e.compile(set.Candidate(id))
-			if ks == nil {
+			k, why := e.compile(set.Candidate(id), len(ids) == 2)
+			if k == nil {
 				t.Fatal(why)
 			}
-			if len(ids) == 2 {
-				ks[0].ax = reaxis(ks[0].ax, set.Candidate(id).Magnitude)
-			}
-			knobs = append(knobs, ks[0])
+			knobs = append(knobs, k)
 		}
 		s := e.evaluate(w, "check", knobs)
 		got := make([]float64, len(e.obs))
@@ -62,5 +58,4 @@ func TestSplineAccuracy(t *testing.T) {
 	check([]string{"nitrification", "nitrate-leaching"}, 0.2)
 	check([]string{"mineralization", "source:wastewater"}, 0.2)
 	check([]string{"uptake-form", "mycorrhizal-route"}, 0.2)
-	_ = rules.None
 }

@@ -7,9 +7,7 @@ import (
 	"sync"
 	"testing"
 
-	"nlens/forward"
 	"nlens/knowledge"
-	"nlens/rank/study"
 	"nlens/rules"
 )
 
@@ -194,6 +192,3 @@ func TestNoneWinsOnNoise(t *testing.T) {
 		})
 	}
 }
-
-var _ = forward.Out
-var _ = study.Options{}

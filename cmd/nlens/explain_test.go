@@ -3,7 +3,6 @@ package main
 import (
 	"bytes"
 	"encoding/json"
-	"os"
 	"strings"
 	"testing"
 	"time"
@@ -178,5 +177,4 @@ func TestProgressBar(t *testing.T) {
 	if strings.Contains(errs, "explaining") {
 		t.Errorf("progress drawn on a non-terminal: %q", errs)
 	}
-	_ = os.Stderr
 }

@@ -6,6 +6,7 @@ import (
 	"strconv"
 	"strings"
 
+	"nlens/knowledge"
 	"nlens/rank"
 )
 
@@ -81,26 +82,7 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 				return err
 			}
 			ew.printf("\nPredicted shift of each under the leading explanations (mean ± sd with noise)\n")
-			headers := []string{"measurement"}
-			for _, i := range lead {
-				headers = append(headers, "#"+strconv.Itoa(i+1))
-			}
-			rows = rows[:0]
-			for i, m := range c.Measurements {
-				if i >= opt.MaxMeasurements {
-					break
-				}
-				row := []string{shortMeasurement(m)}
-				for _, hi := range lead {
-					p := m.Predicted[c.Hypotheses[hi].ID]
-					if m.Unit == "log-ratio" {
-						row = append(row, plusSigned(p.Mean, 2)+"±"+signed(p.SD, 1))
-					} else {
-						row = append(row, pm(p.Mean, p.SD, 1))
-					}
-				}
-				rows = append(rows, row)
-			}
+			headers, rows := measurementTable(c, lead, opt.MaxMeasurements, true)
 			if err := table(ew, headers, "l"+strings.Repeat("r", len(headers)-1), rows); err != nil {
 				return err
 			}
@@ -235,6 +217,38 @@ func predictionTable(c rank.ComparisonResult, lead []int, dec int) ([]string, []
 		for _, i := range lead {
 			m := c.Hypotheses[i].Predicted[o.Observable]
 			row = append(row, pm(m.Mean, m.SD, d))
+		}
+		rows = append(rows, row)
+	}
+	return headers, rows
+}
+
+// measurementTable lays out each next measurement's predicted shift (mean
+// ± sd with noise) under the leading hypotheses, for at most max rows. A
+// compact table gives log ratios a one-decimal sd to fit 80 columns.
+func measurementTable(c rank.ComparisonResult, lead []int, max int, compact bool) ([]string, [][]string) {
+	headers := []string{"measurement"}
+	for _, i := range lead {
+		headers = append(headers, "#"+strconv.Itoa(i+1))
+	}
+	var rows [][]string
+	for i, m := range c.Measurements {
+		if i >= max {
+			break
+		}
+		row := []string{shortMeasurement(m)}
+		for _, hi := range lead {
+			p, ok := m.Predicted[c.Hypotheses[hi].ID]
+			switch {
+			case !ok:
+				row = append(row, "")
+			case m.Unit == knowledge.UnitLogRatio && compact:
+				row = append(row, plusSigned(p.Mean, 2)+"±"+signed(p.SD, 1))
+			case m.Unit == knowledge.UnitLogRatio:
+				row = append(row, pm(p.Mean, p.SD, 2))
+			default:
+				row = append(row, pm(p.Mean, p.SD, 1))
+			}
 		}
 		rows = append(rows, row)
 	}

@@ -184,30 +184,7 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 		writeTable(b, []string{"#", "measurement", "id", "bits", "cost", "method"}, "rllrll", rows)
 		if len(lead) > 0 {
 			fmt.Fprintf(b, "Predicted shift of each measurement under the leading explanations (mean ± sd including measurement noise for %d replicates per group; ‰, or ln ratio for pools and fluxes):\n\n", c.ReplicatesAssumed)
-			headers := []string{"measurement"}
-			for _, i := range lead {
-				headers = append(headers, "#"+strconv.Itoa(i+1))
-			}
-			rows = rows[:0]
-			for i, m := range c.Measurements {
-				if i >= opt.MaxMeasurements {
-					break
-				}
-				dec := 1
-				if m.Unit == knowledge.UnitLogRatio {
-					dec = 2
-				}
-				row := []string{m.ID}
-				for _, hi := range lead {
-					p, ok := m.Predicted[c.Hypotheses[hi].ID]
-					if !ok {
-						row = append(row, "")
-						continue
-					}
-					row = append(row, pm(p.Mean, p.SD, dec))
-				}
-				rows = append(rows, row)
-			}
+			headers, rows := measurementTable(c, lead, opt.MaxMeasurements, false)
 			writeTable(b, headers, "l"+strings.Repeat("r", len(headers)-1), rows)
 		}
 		if why := whyMeasure(c, n); why != "" && len(c.Measurements) > 0 {
