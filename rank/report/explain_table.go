@@ -76,9 +76,9 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 				if i >= opt.MaxMeasurements {
 					break
 				}
-				rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost)})
+				rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost), m.Method})
 			}
-			if err := table(ew, []string{"#", "measurement", "bits", "cost"}, "rlrl", rows); err != nil {
+			if err := wrappedTable(ew, []string{"#", "measurement", "bits", "cost", "method"}, "rlrll", rows, []int{0, 22, 0, 0, 30}); err != nil {
 				return err
 			}
 			ew.printf("\nPredicted shift of each under the leading explanations (mean ± sd with noise)\n")
