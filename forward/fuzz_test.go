@@ -1,7 +1,6 @@
 package forward
 
 import (
-	"bytes"
 	"errors"
 	"flag"
 	"fmt"
@@ -241,33 +240,9 @@ func fuzzSiteSeeds(t *testing.T) map[string][]byte {
 // TestFuzzSiteSeedCorpus keeps the committed seed corpus in step with
 // fuzzSiteSeeds (rewrite it with -update-corpus).
 func TestFuzzSiteSeedCorpus(t *testing.T) {
-	syncSeedCorpus(t, filepath.Join("testdata", "fuzz", "FuzzParseSite"), fuzzSiteSeeds(t))
-}
-
-// syncSeedCorpus writes (with -update-corpus) or compares each seed as a
-// corpus file "seed-NAME" in Go's format: "go test fuzz v1" and one
-// []byte(%q) line.
-func syncSeedCorpus(t *testing.T, dir string, seeds map[string][]byte) {
-	t.Helper()
-	for name, data := range seeds {
-		want := fmt.Appendf(nil, "go test fuzz v1\n[]byte(%q)\n", data)
-		path := filepath.Join(dir, "seed-"+name)
-		if *updateCorpus {
-			if err := os.MkdirAll(dir, 0o755); err != nil {
-				t.Fatal(err)
-			}
-			if err := os.WriteFile(path, want, 0o644); err != nil {
-				t.Fatal(err)
-			}
-			continue
-		}
-		got, err := os.ReadFile(path)
-		if err != nil {
-			t.Errorf("seed %s: %v (run with -update-corpus)", name, err)
-			continue
-		}
-		if !bytes.Equal(got, want) {
-			t.Errorf("seed %s: the committed corpus file differs from the seed (run with -update-corpus)", name)
-		}
+	seeds := map[string][]any{}
+	for name, data := range fuzzSiteSeeds(t) {
+		seeds[name] = []any{data}
 	}
+	inputtest.SyncSeedCorpus(t, filepath.Join("testdata", "fuzz", "FuzzParseSite"), seeds, *updateCorpus)
 }

@@ -60,6 +60,7 @@ type Model struct {
 	augN, augO   blas64.General
 	e14, e15, eO blas64.General
 	z            []float64
+	oRows        [2][]float64 // nitrate-oxygen rows (see fillOxygen)
 }
 
 // NewModel prepares a model of the site.
@@ -75,6 +76,7 @@ func NewModel(s *Site) *Model {
 		e14:     newGeneral(n+1, n+1),
 		e15:     newGeneral(n+1, n+1),
 		z:       make([]float64, 2*n+2),
+		oRows:   [2][]float64{make([]float64, 2*n+3), make([]float64, 2*n+3)},
 	}
 }
 
@@ -151,39 +153,59 @@ func (m *Model) Steady(p *Params, withO bool, dst *State) error {
 	dst.HasO = withO
 	dst.O16, dst.O18 = 0, 0
 	if withO {
-		g16, g18, l16, l18 := m.oxygenRates(p, dst.N14, dst.N15)
-		dst.O16, dst.O18 = g16/l16, g18/l18
+		// Steady state of each O row: gain from the N state and inputs over
+		// the first-order loss on the diagonal.
+		m.fillOxygen(p)
+		n := m.n
+		for k, row := range m.oRows {
+			g := row[2*n+2]
+			for i := range n {
+				g += row[i]*dst.N14[i] + row[n+i]*dst.N15[i]
+			}
+			if k == 0 {
+				dst.O16 = g / -row[2*n]
+			} else {
+				dst.O18 = g / -row[2*n+1]
+			}
+		}
 	}
 	return nil
 }
 
-// oxygenRates returns the nitrate-O gains (constant at the given N state) and
-// first-order loss constants of 16O and 18O. O enters with every N flux into
-// nitrate (three O per N) at the nitrification δ18O and with nitrate inputs
-// at their δ18O; each transfer out of nitrate removes 16O at k and 18O at
-// k/α18.
-func (m *Model) oxygenRates(p *Params, n14, n15 []float64) (g16, g18, l16, l18 float64) {
-	q := m.nitrate
+// fillOxygen writes the two nitrate-oxygen rows of the full system into
+// m.oRows, in the layout of the augmented state [N14 (n), N15 (n), 16O, 18O,
+// 1]: dO/dt = row·[N14; N15; O; 1]. O enters with every N flux into nitrate
+// (three O per N) at the nitrification δ18O and with nitrate inputs at their
+// δ18O; each transfer out of nitrate removes 16O at k and 18O at k/α18. The
+// steady state and the transient both read these rows, so the oxygen
+// budget is written once.
+func (m *Model) fillOxygen(p *Params) {
+	n, q := m.n, m.nitrate
+	o16, o18, c := 2*n, 2*n+1, 2*n+2
+	r16, r18 := m.oRows[0], m.oRows[1]
+	clear(r16)
+	clear(r18)
 	ln, hn := inputSplit(3, Ratio(p.NitrificationD18O, RVSMOW))
 	for j, t := range m.Site.Transfers {
 		if t.To == q {
-			flux := kIso(p, j, 0)*n14[t.From] + kIso(p, j, 1)*n15[t.From]
-			g16 += ln * flux
-			g18 += hn * flux
+			k14, k15 := kIso(p, j, 0), kIso(p, j, 1)
+			r16[t.From] += ln * k14
+			r16[n+t.From] += ln * k15
+			r18[t.From] += hn * k14
+			r18[n+t.From] += hn * k15
 		}
 		if t.From == q {
-			l16 += p.K[j]
-			l18 += p.K[j] / Alpha(p.Eps18[j])
+			r16[o16] -= p.K[j]
+			r18[o18] -= p.K[j] / Alpha(p.Eps18[j])
 		}
 	}
 	for _, in := range p.Inputs {
 		if in.To == q {
 			l, h := inputSplit(3*in.RateKgPerHaYr, Ratio(in.D18O, RVSMOW))
-			g16 += l
-			g18 += h
+			r16[c] += l
+			r18[c] += h
 		}
 	}
-	return g16, g18, l16, l18
 }
 
 func resize(s []float64, n int) []float64 {
@@ -238,26 +260,11 @@ func (m *Model) expAugmented(p *Params, t float64, withO bool) {
 	m.fillN(p, 0, a, st, t, d, nil)
 	// The 15N block sits at offset (n, n) and its inputs in column d.
 	m.fillN(p, 1, a[n*st+n:], st, t, d-n, nil)
-	q, o16, o18 := m.nitrate, 2*n, 2*n+1
-	ln, hn := inputSplit(3, Ratio(p.NitrificationD18O, RVSMOW))
-	for j, tr := range m.Site.Transfers {
-		if tr.To == q {
-			k14, k15 := kIso(p, j, 0)*t, kIso(p, j, 1)*t
-			a[o16*st+tr.From] += ln * k14
-			a[o16*st+n+tr.From] += ln * k15
-			a[o18*st+tr.From] += hn * k14
-			a[o18*st+n+tr.From] += hn * k15
-		}
-		if tr.From == q {
-			a[o16*st+o16] -= p.K[j] * t
-			a[o18*st+o18] -= p.K[j] / Alpha(p.Eps18[j]) * t
-		}
-	}
-	for _, in := range p.Inputs {
-		if in.To == q {
-			l, h := inputSplit(3*in.RateKgPerHaYr, Ratio(in.D18O, RVSMOW))
-			a[o16*st+d] += l * t
-			a[o18*st+d] += h * t
+	m.fillOxygen(p)
+	for k, row := range m.oRows {
+		dst := a[(2*n+k)*st : (2*n+k+1)*st]
+		for c, v := range row {
+			dst[c] += v * t
 		}
 	}
 	m.expO.exp(m.eO, m.augO)

@@ -147,6 +147,12 @@ func (s *Site) Observable(name string) (Observable, error) {
 	return o, fmt.Errorf("unknown observable %q (observables: %s, n2o-sp, pool:<pool>, flux:<process>)", name, strings.Join(IsotopeNames, ", "))
 }
 
+// LogRatioName reports whether shifts of the named observable are compared
+// as ln(treatment/control): pool sizes and fluxes.
+func LogRatioName(name string) bool {
+	return strings.HasPrefix(name, "pool:") || strings.HasPrefix(name, "flux:")
+}
+
 // KnownObservable reports whether name is an observable of some site
 // (without binding it to one).
 func KnownObservable(name string) bool {

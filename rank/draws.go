@@ -126,9 +126,9 @@ const (
 	minESSFraction = 0.25
 )
 
-// drawWeights returns normalised weights from how well each draw's baseline
-// reproduces the control means, tempered so that at least a quarter of the
-// draws count; worst is the largest mismatch, in SDs, of the best draw.
+// drawWeights turns the draws' log-likelihoods of the control means into
+// normalised weights, tempered so that at least a quarter of the draws
+// count (effective sample size).
 func drawWeights(logw []float64) []float64 {
 	n := len(logw)
 	w := make([]float64, n)

@@ -50,8 +50,7 @@ type engine struct {
 	opt   Options
 	ctx   rules.Context
 	draws []draw
-	w     []float64 // normalised draw weights
-	logw  []float64 // ln w
+	logw  []float64 // ln of the normalised draw weights
 	needO bool
 	// observed observables, their shifts and variances.
 	obs      []forward.Observable
@@ -285,14 +284,13 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 		}
 	}
 	e.siteCertain = e.siteIsCertain()
-	e.w = drawWeights(logw)
 	e.logw = make([]float64, n)
-	for d, v := range e.w {
+	for d, v := range drawWeights(logw) {
 		e.logw[d] = math.Log(v)
 	}
 	if bestMismatch > 3 {
 		unit := "‰"
-		if strings.HasPrefix(worstName, "pool:") || strings.HasPrefix(worstName, "flux:") {
+		if forward.LogRatioName(worstName) {
 			unit = " (ln ratio)"
 		}
 		e.warnf("the control's absolute %s differs from the %s site model by %+.1f%s even in the closest draw: the model is used for shifts, but its baseline is not this site's; consider a site file fitted to it", worstName, e.site.ID, worstDiff, unit)

@@ -131,16 +131,19 @@ func (s *scored) likelihood(e *engine) {
 		norm += -0.5 * math.Log(2*math.Pi*e.variance[o])
 	}
 	mean := make([]float64, no)
+	w := make([]float64, nd)
+	for d, lw := range s.logw {
+		w[d] = math.Exp(lw)
+	}
 	for f := range nF {
 		clear(mean)
 		for d := range nd {
 			var ll float64
 			p := s.pred[(f*nd+d)*no:]
-			wd := math.Exp(s.logw[d])
 			for o := range no {
 				r := e.shift[o] - p[o]
 				ll -= 0.5 * r * r / e.variance[o]
-				mean[o] += wd * p[o]
+				mean[o] += w[d] * p[o]
 			}
 			if math.IsNaN(ll) {
 				ll = math.Inf(-1)

@@ -1,11 +1,16 @@
 // Package inputtest holds what the fuzz tests of nlens's input parsers
-// share: the bounds a positioned input error's line must respect. It is
-// test support (like net/http/httptest) and computes nothing for users.
+// share: the bounds a positioned input error's line must respect and the
+// upkeep of the committed seed corpora. It is test support (like
+// net/http/httptest) and computes nothing for users.
 package inputtest
 
 import (
 	"bytes"
+	"fmt"
+	"os"
+	"path/filepath"
 	"strings"
+	"testing"
 	"unicode"
 	"unicode/utf16"
 )
@@ -44,4 +49,44 @@ func YAMLBlank(data []byte) bool {
 		}
 	}
 	return true
+}
+
+// SyncSeedCorpus writes (update set) or compares each seed as a corpus file
+// "seed-NAME" in dir, in Go's fuzz corpus format: "go test fuzz v1" and one
+// line per value ([]byte, bool or byte).
+func SyncSeedCorpus(t testing.TB, dir string, seeds map[string][]any, update bool) {
+	t.Helper()
+	for name, vals := range seeds {
+		want := []byte("go test fuzz v1\n")
+		for _, v := range vals {
+			switch v := v.(type) {
+			case []byte:
+				want = fmt.Appendf(want, "[]byte(%q)\n", v)
+			case bool:
+				want = fmt.Appendf(want, "bool(%v)\n", v)
+			case byte:
+				want = fmt.Appendf(want, "byte(%q)\n", v)
+			default:
+				t.Fatalf("seed %s: no corpus encoding for %T", name, v)
+			}
+		}
+		path := filepath.Join(dir, "seed-"+name)
+		if update {
+			if err := os.MkdirAll(dir, 0o755); err != nil {
+				t.Fatal(err)
+			}
+			if err := os.WriteFile(path, want, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			continue
+		}
+		got, err := os.ReadFile(path)
+		if err != nil {
+			t.Errorf("seed %s: %v (run with -update-corpus)", name, err)
+			continue
+		}
+		if !bytes.Equal(got, want) {
+			t.Errorf("seed %s: the committed corpus file differs from the seed (run with -update-corpus)", name)
+		}
+	}
 }

@@ -70,7 +70,7 @@ func obsShort(o string) string {
 	case "n2o":
 		return "N2O δ15N"
 	}
-	if strings.HasPrefix(o, "pool:") || strings.HasPrefix(o, "flux:") {
+	if forward.LogRatioName(o) {
 		return strings.Replace(o, ":", " ", 1)
 	}
 	return o + " δ15N"

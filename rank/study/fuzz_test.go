@@ -1,7 +1,6 @@
 package study
 
 import (
-	"bytes"
 	"errors"
 	"flag"
 	"fmt"
@@ -360,49 +359,9 @@ func fuzzSamplesSeeds() map[string][]any {
 // TestFuzzStudySeedCorpus and TestFuzzSamplesSeedCorpus keep the committed
 // seed corpora in step with the seed tables (rewrite with -update-corpus).
 func TestFuzzStudySeedCorpus(t *testing.T) {
-	syncSeedCorpus(t, filepath.Join("testdata", "fuzz", "FuzzParseStudy"), fuzzStudySeeds())
+	inputtest.SyncSeedCorpus(t, filepath.Join("testdata", "fuzz", "FuzzParseStudy"), fuzzStudySeeds(), *updateCorpus)
 }
 
 func TestFuzzSamplesSeedCorpus(t *testing.T) {
-	syncSeedCorpus(t, filepath.Join("testdata", "fuzz", "FuzzParseSamples"), fuzzSamplesSeeds())
-}
-
-// syncSeedCorpus writes (with -update-corpus) or compares each seed as a
-// corpus file "seed-NAME" in Go's format: "go test fuzz v1" and one line
-// per value.
-func syncSeedCorpus(t *testing.T, dir string, seeds map[string][]any) {
-	t.Helper()
-	for name, vals := range seeds {
-		want := []byte("go test fuzz v1\n")
-		for _, v := range vals {
-			switch v := v.(type) {
-			case []byte:
-				want = fmt.Appendf(want, "[]byte(%q)\n", v)
-			case bool:
-				want = fmt.Appendf(want, "bool(%v)\n", v)
-			case byte:
-				want = fmt.Appendf(want, "byte(%q)\n", v)
-			default:
-				t.Fatalf("seed %s: no corpus encoding for %T", name, v)
-			}
-		}
-		path := filepath.Join(dir, "seed-"+name)
-		if *updateCorpus {
-			if err := os.MkdirAll(dir, 0o755); err != nil {
-				t.Fatal(err)
-			}
-			if err := os.WriteFile(path, want, 0o644); err != nil {
-				t.Fatal(err)
-			}
-			continue
-		}
-		got, err := os.ReadFile(path)
-		if err != nil {
-			t.Errorf("seed %s: %v (run with -update-corpus)", name, err)
-			continue
-		}
-		if !bytes.Equal(got, want) {
-			t.Errorf("seed %s: the committed corpus file differs from the seed (run with -update-corpus)", name)
-		}
-	}
+	inputtest.SyncSeedCorpus(t, filepath.Join("testdata", "fuzz", "FuzzParseSamples"), fuzzSamplesSeeds(), *updateCorpus)
 }

@@ -134,7 +134,7 @@ func ParseSamples(file string, data []byte, site *forward.Site, opt Options) (ro
 			bad("value", "expected a number, got %q", value)
 			continue
 		}
-		logRatio := strings.HasPrefix(obs, "pool:") || strings.HasPrefix(obs, "flux:")
+		logRatio := forward.LogRatioName(obs)
 		if msg := valueProblem(obs, v, opt); msg != "" {
 			bad("value", "%s", msg)
 			continue

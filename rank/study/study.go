@@ -384,7 +384,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 func observe(obs string, c, t Stat) Observed {
 	o := Observed{Observable: obs, Control: c, Treatment: t}
 	sc, st := c.SD, t.SD
-	o.LogRatio = strings.HasPrefix(obs, "pool:") || strings.HasPrefix(obs, "flux:")
+	o.LogRatio = forward.LogRatioName(obs)
 	if o.LogRatio {
 		o.Shift = math.Log(t.Mean) - math.Log(c.Mean)
 		sc /= c.Mean
@@ -445,7 +445,7 @@ func checkStat(obs string, s Stat, opt Options) string {
 // difference of two δ values, is not checked.
 func valueProblem(obs string, v float64, opt Options) string {
 	switch {
-	case strings.HasPrefix(obs, "pool:") || strings.HasPrefix(obs, "flux:"):
+	case forward.LogRatioName(obs):
 		if !(v > 0) {
 			return fmt.Sprintf("a pool size or flux must be positive, got %g", v)
 		}
