@@ -165,13 +165,13 @@ func massBalanceSites(t *testing.T) []*Site {
 func TestTrajectoryLimitIsSteadyState(t *testing.T) {
 	t.Parallel()
 	for _, s := range massBalanceSites(t) {
-		c := Change{Factors: []Factor{{"nitrification", 2}}}
+		c := Sustained([]Knob{Factor("nitrification", 2)})
 		sim, err := Simulate(s, c, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
 		long := 2e5 // years: far beyond the slowest turnover of these sites
-		xs, err := sim.Trajectory([]float64{long / 4, long / 2, long})
+		xs, _, err := sim.Trajectory([]float64{long / 4, long / 2, long})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -260,8 +260,9 @@ func TestStiffExponentialAgainstEigen(t *testing.T) {
 	if err := m.Steady(&base, false, &x0); err != nil {
 		t.Fatal(err)
 	}
-	p, err := Change{Factors: []Factor{{"nitrification", 0.2}, {"mineralization", 3}}, Additions: []InputParam{{To: 1, RateKgPerHaYr: 30, D15N: 5}}}.Apply(s, &base)
-	if err != nil {
+	c := Sustained([]Knob{Factor("nitrification", 0.2), Factor("mineralization", 3)}, InputParam{To: 1, RateKgPerHaYr: 30, D15N: 5})
+	var p Params
+	if err := c.ParamsAt(s, &base, 0, &p); err != nil {
 		t.Fatal(err)
 	}
 	n := len(s.Pools)

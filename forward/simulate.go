@@ -3,70 +3,44 @@ package forward
 import (
 	"fmt"
 	"math"
-	"slices"
 
 	"gonum.org/v1/gonum/floats"
 
 	"nlens/knowledge"
 )
 
-// Change is what happens at t = 0: rate constants of processes multiplied,
-// and new inputs added.
-type Change struct {
-	Factors   []Factor
-	Additions []InputParam
-}
-
-// Factor multiplies the rate constants of every transfer of a process.
-type Factor struct {
-	Process string
-	Factor  float64
-}
-
-// SourceInput returns an input of rate kg N/ha/yr of a knowledge source to
-// its receiving pool, at the source's typical δ15N (and δ18O).
-func SourceInput(s *Site, kb *knowledge.Base, source string, rate float64) (InputParam, error) {
+// SourceInputs returns the inputs of rate kg N/ha/yr of a knowledge source:
+// one per receiving pool of the source (a split source such as
+// ammonium-nitrate enters several), at the part's typical δ15N (and δ18O
+// for nitrate).
+func SourceInputs(s *Site, kb *knowledge.Base, source string, rate float64) ([]InputParam, error) {
 	src, ok := kb.Source(source)
 	if !ok {
-		return InputParam{}, fmt.Errorf("unknown source %q", source)
+		return nil, fmt.Errorf("unknown source %q", source)
 	}
-	to := s.PoolIndex(src.Pool)
-	if to < 0 {
-		return InputParam{}, fmt.Errorf("source %q enters the %s pool, which site %q does not have", source, src.Pool, s.ID)
-	}
-	in := InputParam{To: to, RateKgPerHaYr: rate, D15N: src.D15NPermil, D18O: s.NitrificationD18O}
-	if src.D18OPermil != nil {
-		in.D18O = *src.D18OPermil
-	}
-	return in, nil
-}
-
-// Apply returns a copy of p with the change made.
-func (c Change) Apply(s *Site, p *Params) (Params, error) {
-	var q Params
-	q.CopyFrom(p)
-	for _, f := range c.Factors {
-		if !(f.Factor >= 0) || math.IsInf(f.Factor, 0) {
-			return q, fmt.Errorf("factor for %s must be a finite number ≥ 0, got %g", f.Process, f.Factor)
+	var out []InputParam
+	for _, part := range src.Parts {
+		to := s.PoolIndex(part.Pool)
+		if to < 0 {
+			return nil, fmt.Errorf("source %q enters the %s pool, which site %q does not have", source, part.Pool, s.ID)
 		}
-		if !slices.Contains(knowledge.Processes, f.Process) {
-			return q, fmt.Errorf("unknown process %q", f.Process)
+		in := InputParam{To: to, RateKgPerHaYr: rate * part.Share, D15N: part.D15NPermil, D18O: s.NitrificationD18O}
+		if part.D18OPermil != nil {
+			in.D18O = *part.D18OPermil
 		}
-		if q.Scale(s, f.Process, f.Factor) == 0 {
-			return q, fmt.Errorf("site %q has no %s transfer to change", s.ID, f.Process)
-		}
+		out = append(out, in)
 	}
-	for _, in := range c.Additions {
-		q.AddInput(in.To, in.RateKgPerHaYr, in.D15N, in.D18O)
-	}
-	return q, nil
+	return out, nil
 }
 
 // Simulation is a site's baseline steady state and its state after a change,
 // either t years later or at the new steady state.
 type Simulation struct {
-	Site           *Site
-	Years          *float64 // nil: the new steady state
+	Site   *Site
+	Change Change
+	Years  *float64 // nil: the new steady state
+	// Base are the baseline parameters; Changed those in force at the
+	// observation time (or in the final regime).
 	Base, Changed  Params
 	Baseline, Then State
 	Warnings       []string
@@ -78,27 +52,26 @@ type Simulation struct {
 const PoolTolerance = 0.10
 
 // Simulate computes the baseline steady state of the site and the state
-// after the change (at years, or the new steady state when years is nil).
-// Nitrate oxygen is always included.
+// after the change (at years, or the new steady state of its final regime
+// when years is nil). Nitrate oxygen is always included.
 func Simulate(s *Site, c Change, years *float64) (*Simulation, error) {
-	sim := &Simulation{Site: s, Years: years, Base: s.Params(), model: NewModel(s)}
+	sim := &Simulation{Site: s, Change: c, Years: years, Base: s.Params(), model: NewModel(s)}
 	sim.Warnings = append(sim.Warnings, s.Warnings...)
-	var err error
-	if sim.Changed, err = c.Apply(s, &sim.Base); err != nil {
-		return nil, err
-	}
 	if err := sim.model.Steady(&sim.Base, true, &sim.Baseline); err != nil {
 		return nil, err
 	}
 	sim.Warnings = append(sim.Warnings, PoolWarnings(s, &sim.Baseline)...)
+	var r Run
+	var err error
 	if years == nil {
-		err = sim.model.Steady(&sim.Changed, true, &sim.Then)
+		err = r.Steady(sim.model, &sim.Base, &c, true, &sim.Then)
 	} else {
-		err = sim.model.Advance(&sim.Changed, &sim.Baseline, *years, true, &sim.Then)
+		err = r.Advance(sim.model, &sim.Base, &c, &sim.Baseline, *years, true, &sim.Then)
 	}
 	if err != nil {
 		return nil, err
 	}
+	sim.Changed.CopyFrom(r.Final())
 	return sim, nil
 }
 
@@ -115,9 +88,10 @@ func PoolWarnings(s *Site, x *State) []string {
 }
 
 // Trajectory returns the changed state at each of the times (years after
-// the change, ascending).
-func (sim *Simulation) Trajectory(times []float64) ([]State, error) {
-	return sim.model.Trajectory(&sim.Changed, &sim.Baseline, times, true)
+// the change, ascending) and the parameters in force at each.
+func (sim *Simulation) Trajectory(times []float64) ([]State, []Params, error) {
+	var r Run
+	return r.Trajectory(sim.model, &sim.Base, &sim.Change, &sim.Baseline, times, true)
 }
 
 // Horizon settings for trajectories that run to the new steady state.

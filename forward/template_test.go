@@ -305,13 +305,13 @@ func TestDrySitesEnriched(t *testing.T) {
 // common practice, not a published number).
 func TestForestFoliageRespondsWithinTwoYears(t *testing.T) {
 	t.Parallel()
-	clearCut := Change{Factors: []Factor{
-		{"uptake-ammonium", 0.5}, {"uptake-nitrate", 0.5},
-		{"mycorrhizal-uptake", 0.5}, {"mycorrhizal-transfer", 0.5}, {"fungal-turnover", 0.5},
-		{"nitrification", 3}, {"nitrifier-gas", 3},
-		{"immobilization-ammonium", 0.5}, {"immobilization-nitrate", 0.5},
-		{"leaching-nitrate", 5},
-	}}
+	clearCut := Sustained([]Knob{
+		Factor("uptake-ammonium", 0.5), Factor("uptake-nitrate", 0.5),
+		Factor("mycorrhizal-uptake", 0.5), Factor("mycorrhizal-transfer", 0.5), Factor("fungal-turnover", 0.5),
+		Factor("nitrification", 3), Factor("nitrifier-gas", 3),
+		Factor("immobilization-ammonium", 0.5), Factor("immobilization-nitrate", 0.5),
+		Factor("leaching-nitrate", 5),
+	})
 	const (
 		share = 0.5  // project issue, common practice
 		early = 2.0  // years: Pardo et al. 2002 saw the rise within two years

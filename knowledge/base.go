@@ -26,6 +26,7 @@ type Base struct {
 	Effects       []Effect
 	NitrateOxygen NitrateOxygen
 	Sources       []Source
+	Forcings      Forcings
 	Measurements  []Measurement
 	References    []Reference
 	// Sites maps a template id to its YAML text and embedded file name; the
@@ -68,7 +69,7 @@ func MustDefault() *Base {
 }
 
 // Load reads and validates a knowledge base laid out like the embedded one:
-// effects.yaml, sources.yaml, measurements.yaml, references.yaml and
+// effects.yaml, sources.yaml, forcings.yaml, measurements.yaml, references.yaml and
 // sites/*.yaml at the root of fsys.
 func Load(fsys fs.FS) (*Base, error) {
 	b := &Base{sites: map[string]SiteFile{}}
@@ -90,6 +91,9 @@ func Load(fsys fs.FS) (*Base, error) {
 	collect(b.loadReferences(fsys))
 	collect(b.loadEffects(fsys))
 	collect(b.loadSources(fsys))
+	if len(errs) == 0 {
+		collect(b.loadForcings(fsys))
+	}
 	collect(b.loadMeasurements(fsys))
 	collect(b.loadSites(fsys))
 	if len(errs) > 0 {
@@ -209,6 +213,12 @@ func (b *Base) citations() []citing {
 	}
 	for _, m := range b.Measurements {
 		out = append(out, citing{"measurements.yaml", m.Line, m.ID + ".refs", m.Refs})
+	}
+	for _, a := range b.Forcings.Additions {
+		out = append(out, citing{"forcings.yaml", a.Line, "additions." + a.Source + ".refs", a.Refs})
+	}
+	for _, m := range b.Forcings.Management {
+		out = append(out, citing{"forcings.yaml", m.Line, "management." + m.ID + ".refs", m.Refs})
 	}
 	return out
 }

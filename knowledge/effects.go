@@ -14,6 +14,7 @@ var Processes = []string{
 	"uptake-ammonium", "uptake-nitrate", "mycorrhizal-uptake",
 	"mycorrhizal-transfer", "fungal-turnover", "allocation", "retranslocation",
 	"litterfall", "leaching-nitrate", "leaching-organic", "harvest", "erosion",
+	"grazing-urine", "grazing-dung", "grazing-export",
 }
 
 // Distribution names for an uncertain value drawn within its range.
