@@ -52,7 +52,7 @@ type KnobKind int
 // whatever the order of the mods: shares (computed from the baseline
 // parameters, DESIGN §4), then the redistributions (nitrate share of
 // uptake, fungal transfer ratio, mycorrhizal route) on the result, then
-// factors, added rates and the fixation input.
+// factors and the fixation input.
 const (
 	// KnobShare sets the share s of the donor pools' outflow taken by the
 	// processes: their combined flux becomes s/(1−s) times the baseline
@@ -75,16 +75,13 @@ const (
 	KnobRoute
 	// KnobFactor multiplies the rate constants of the processes.
 	KnobFactor
-	// KnobAddRate raises the rate constant of the processes' transfers so
-	// that their flux at the file's pool sizes grows by Value kg N/ha/yr.
-	KnobAddRate
 	// KnobFixation sets the biological N fixation input to Value kg N/ha/yr
 	// (the site's fixation inputs rescaled, or one added to the fixation
 	// source's pool).
 	KnobFixation
 )
 
-var knobNames = map[KnobKind]string{KnobShare: "share", KnobNitrateShare: "nitrate-share", KnobTransferRatio: "transfer-ratio", KnobRoute: "route", KnobFactor: "factor", KnobAddRate: "add-rate", KnobFixation: "fixation"}
+var knobNames = map[KnobKind]string{KnobShare: "share", KnobNitrateShare: "nitrate-share", KnobTransferRatio: "transfer-ratio", KnobRoute: "route", KnobFactor: "factor", KnobFixation: "fixation"}
 
 func (k KnobKind) String() string { return knobNames[k] }
 
@@ -96,6 +93,9 @@ type Knob struct {
 	From    string
 	Value   float64
 	Weights []float64
+	// Input is where a fixation knob adds N on a site that has no fixation
+	// input of its own (its rate is replaced by Value).
+	Input *InputParam
 }
 
 // Processes of the plant-supply and fungal knobs.
@@ -269,7 +269,7 @@ func (c *Change) ParamsAt(s *Site, base *Params, t float64, dst *Params) error {
 			act = append(act, m)
 		}
 	}
-	for _, phase := range [][]KnobKind{{KnobShare}, {KnobNitrateShare, KnobTransferRatio, KnobRoute}, {KnobFactor}, {KnobAddRate}, {KnobFixation}} {
+	for _, phase := range [][]KnobKind{{KnobShare}, {KnobNitrateShare, KnobTransferRatio, KnobRoute}, {KnobFactor}, {KnobFixation}} {
 		for _, m := range act {
 			for _, k := range m.Knobs {
 				if slices.Contains(phase, k.Kind) {
@@ -288,8 +288,8 @@ func (c *Change) ParamsAt(s *Site, base *Params, t float64, dst *Params) error {
 	return nil
 }
 
-// transfers returns the indices of the transfers of the processes (leaving
-// pool from when it is not "").
+// transfers returns the indices of the transfers of the processes (all
+// processes when procs is nil), leaving pool from when it is not "".
 func transfers(s *Site, procs []string, from string) []int {
 	fi := -2
 	if from != "" {
@@ -297,7 +297,7 @@ func transfers(s *Site, procs []string, from string) []int {
 	}
 	var out []int
 	for j, t := range s.Transfers {
-		if slices.Contains(procs, t.Process) && (fi == -2 || t.From == fi) {
+		if (procs == nil || slices.Contains(procs, t.Process)) && (fi == -2 || t.From == fi) {
 			out = append(out, j)
 		}
 	}
@@ -434,21 +434,6 @@ func applyKnob(s *Site, base, p *Params, k Knob) error {
 		for _, j := range js {
 			p.K[j] *= k.Value
 		}
-	case KnobAddRate:
-		js := transfers(s, k.Processes, k.From)
-		if len(js) == 0 {
-			return errKnob(s, k, "the site has no such transfer")
-		}
-		// The extra flux is spread like the current one (equally when the
-		// transfers are idle).
-		now := flux(s, p, js)
-		for _, j := range js {
-			w := 1 / float64(len(js))
-			if now > 0 {
-				w = p.K[j] * s.PoolKg[s.Transfers[j].From] / now
-			}
-			p.K[j] += w * k.Value / s.PoolKg[s.Transfers[j].From]
-		}
 	case KnobFixation:
 		var fix []int
 		var have float64
@@ -464,10 +449,14 @@ func applyKnob(s *Site, base, p *Params, k Knob) error {
 			}
 			return nil
 		}
-		for _, i := range fix {
-			p.Inputs[i].RateKgPerHaYr = 0
+		if k.Input != nil {
+			p.AddInput(k.Input.To, k.Value, k.Input.D15N, k.Input.D18O)
+			return nil
 		}
-		return errKnob(s, k, "the site has no fixation input to change; add one with --add %s=RATE", FixationSource)
+		if k.Value == 0 {
+			return nil
+		}
+		return errKnob(s, k, "the site has no fixation input to change")
 	default:
 		return fmt.Errorf("unknown knob kind %d", k.Kind)
 	}
@@ -575,4 +564,73 @@ func Sustained(knobs []Knob, inputs ...InputParam) Change {
 // Factor is a knob multiplying the rate constants of a process by f.
 func Factor(process string, f float64) Knob {
 	return Knob{Kind: KnobFactor, Processes: []string{process}, Value: f}
+}
+
+// KnobValue returns the value a share-type knob (share, nitrate share,
+// transfer ratio, route) has under p: the inverse of applying it. For a
+// fixation knob it is the fixation input rate. It is 0 where the site has
+// none of the knob's transfers.
+func KnobValue(s *Site, p *Params, k Knob) float64 {
+	ratio := func(num, den []int) float64 {
+		d := flux(s, p, den)
+		if d == 0 {
+			return 0
+		}
+		return flux(s, p, num) / d
+	}
+	switch k.Kind {
+	case KnobShare:
+		js := transfers(s, k.Processes, k.From)
+		donor := make([]bool, len(s.Pools))
+		for _, j := range js {
+			donor[s.Transfers[j].From] = true
+		}
+		var all []int
+		for j, t := range s.Transfers {
+			if donor[t.From] {
+				all = append(all, j)
+			}
+		}
+		return ratio(js, all)
+	case KnobNitrateShare:
+		return ratio(transfers(s, []string{procUptakeNitrate}, ""), transfers(s, []string{procUptakeAmmonium, procUptakeNitrate}, ""))
+	case KnobTransferRatio:
+		return ratio(transfers(s, []string{procMycTransfer}, "fungi"), transfers(s, nil, "fungi"))
+	case KnobRoute:
+		return ratio(transfers(s, []string{procMycTransfer}, ""), transfers(s, []string{procUptakeAmmonium, procUptakeNitrate, procMycTransfer}, ""))
+	case KnobFixation:
+		var r float64
+		for i, in := range s.Inputs {
+			if in.Source == FixationSource && i < len(p.Inputs) {
+				r += p.Inputs[i].RateKgPerHaYr
+			}
+		}
+		return r
+	}
+	return 0
+}
+
+// KnobTransfers returns the transfers whose flux a knob's magnitude
+// implies: the processes of a share knob, uptake of nitrate for the uptake
+// form, the mycorrhizal transfer for the transfer ratio and the route.
+func KnobTransfers(s *Site, k Knob) []int {
+	switch k.Kind {
+	case KnobShare, KnobFactor:
+		return transfers(s, k.Processes, k.From)
+	case KnobNitrateShare:
+		return transfers(s, []string{procUptakeNitrate}, "")
+	case KnobTransferRatio, KnobRoute:
+		return transfers(s, []string{procMycTransfer}, "")
+	}
+	return nil
+}
+
+// FluxAt returns the flux (kg N/ha/yr) of the transfers js in state x under
+// parameters p: Σ k_j·N(from_j), both isotopes.
+func FluxAt(s *Site, p *Params, x *State, js []int) float64 {
+	var f float64
+	for _, j := range js {
+		f += p.K[j] * x.Total(s.Transfers[j].From)
+	}
+	return f
 }

@@ -247,19 +247,3 @@ func TestRedistributionsKeepTotals(t *testing.T) {
 		}
 	}
 }
-
-// N lost as NH3 from an application leaves the rest enriched as the open
-// system predicts: FACTS §5.2 worked values (δ_in 0, ε 10, F 0.6 → δ_s
-// 5.976; δ_in −2, ε 20, F 0.3 → 3.905).
-func TestVolatilizedInputOpenSystem(t *testing.T) {
-	t.Parallel()
-	for _, tt := range []struct{ din, eps, f, want float64 }{{0, 10, 0.6, 5.976}, {-2, 20, 0.3, 3.905}} {
-		rate, d := VolatilizedInput(100, tt.din, tt.f, tt.eps)
-		if math.Abs(d-tt.want) > 5e-4 {
-			t.Errorf("δ %g, want %g (FACTS §5.2)", d, tt.want)
-		}
-		if math.Abs(rate-100*(1-tt.f)) > 0.01 {
-			t.Errorf("rate %g, want about %g", rate, 100*(1-tt.f))
-		}
-	}
-}

@@ -69,7 +69,11 @@ type Site struct {
 	// nitrification; Fixed when the file gives it.
 	NitrificationD18O      float64
 	NitrificationD18OFixed bool
-	Warnings               []string
+	// MycorrhizalType and LandUse are the site's defaults for the study
+	// context (DESIGN §3, §6).
+	MycorrhizalType string
+	LandUse         string
+	Warnings        []string
 }
 
 // Input is N entering a pool from outside at a fixed rate.

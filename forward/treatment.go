@@ -57,7 +57,7 @@ var grazingProcs = []string{"grazing-urine", "grazing-dung", "grazing-export"}
 
 // TreatmentRoutes are the transfers a treatment may need that a site can
 // lack: the grazing transfers (from foliage, or the plant pool where there
-// is no foliage pool) and volatilization from ammonium (urine NH3).
+// is no foliage pool).
 func TreatmentRoutes(s *Site, kb *knowledge.Base, t Treatment) []Route {
 	var out []Route
 	for _, tag := range t.Management {
@@ -69,8 +69,7 @@ func TreatmentRoutes(s *Site, kb *knowledge.Base, t Treatment) []Route {
 		out = append(out,
 			Route{Process: "grazing-urine", From: from, To: "ammonium"},
 			Route{Process: "grazing-dung", From: from, To: "organic"},
-			Route{Process: "grazing-export", From: from, To: "out"},
-			Route{Process: "volatilization", From: "ammonium", To: "out"})
+			Route{Process: "grazing-export", From: from, To: "out"})
 	}
 	return out
 }
@@ -82,33 +81,14 @@ func grazedPool(s *Site) string {
 	return "plant"
 }
 
-// VolatilizedInput returns the rate (kg N/ha/yr) and δ15N (‰) of an
-// application of rate kg N/ha/yr at δ15N d15n that reaches the soil after a
-// share loss of its N is lost as NH3 with isotope effect eps (‰). The
-// applied N is one small pool at steady state, the open system of
-// OpenSubstrate with F = loss (Hayes 2004; Fry 2006): what reaches the soil
-// is the unreacted substrate, R_out = R_in/((1 − L) + L/α), carrying
-// (1 − L) of the applied 14N.
-func VolatilizedInput(rate, d15n, loss, eps float64) (float64, float64) {
-	if loss == 0 {
-		return rate, d15n
-	}
-	l14, _ := inputSplit(rate, Ratio(d15n, RAir))
-	d := OpenSubstrate(d15n, eps, loss)
-	out14 := (1 - loss) * l14
-	return out14 * (1 + Ratio(d, RAir)), d
-}
-
 // TreatmentChange returns the Change that applies the treatment to the
-// site: additions as inputs (less their NH3 loss at application), moves at
-// t = 0 and rate changes of each management tag that acts on the model.
-// size picks every uncertain size, delta the δ15N and δ18O of each
-// addition's part (measured values are used as given); base are the
-// baseline parameters (grazing is sized against them). Management tags
-// that are context only are ignored.
-func TreatmentChange(s *Site, kb *knowledge.Base, base *Params, t Treatment, size SizeFunc) (Change, error) {
+// site (DESIGN §4): additions as inputs to their source's receiving pools
+// from t = 0 (for their duration), moves at t = 0 and rate changes of each
+// management tag that acts on the model. size picks every uncertain size,
+// including the δ of an addition's part that was not measured. Management
+// tags that are context only are ignored.
+func TreatmentChange(s *Site, kb *knowledge.Base, t Treatment, size SizeFunc) (Change, error) {
 	var c Change
-	volEff, _ := kb.Effect("volatilization")
 	for i, a := range t.Additions {
 		src, ok := kb.Source(a.Source)
 		if !ok {
@@ -119,12 +99,6 @@ func TreatmentChange(s *Site, kb *knowledge.Base, base *Params, t Treatment, siz
 			end = a.DurationYears
 		}
 		mod := Mod{Start: 0, End: end, Label: "addition of " + src.Label}
-		loss := 0.0
-		eps := volEff.EpsilonPermil
-		if af, ok := kb.AdditionForcing(a.Source); ok {
-			loss = size(fmt.Sprintf("additions[%d].nh3_loss", i), af.NH3Loss)
-			eps = size(fmt.Sprintf("additions[%d].nh3_epsilon", i), knowledge.Size{Typical: volEff.EpsilonPermil, Range: volEff.RangePermil})
-		}
 		for _, part := range src.Parts {
 			to := s.PoolIndex(part.Pool)
 			if to < 0 {
@@ -145,11 +119,7 @@ func TreatmentChange(s *Site, kb *knowledge.Base, base *Params, t Treatment, siz
 					d18 = size(fmt.Sprintf("additions[%d].%s.d18o", i, part.Pool), knowledge.Size{Typical: *part.D18OPermil, Range: part.D18ORangePermil})
 				}
 			}
-			rate := a.RateKgPerHaYr * part.Share
-			if part.Pool == "ammonium" {
-				rate, d15 = VolatilizedInput(rate, d15, loss, eps)
-			}
-			mod.Inputs = append(mod.Inputs, InputParam{To: to, RateKgPerHaYr: rate, D15N: d15, D18O: d18})
+			mod.Inputs = append(mod.Inputs, InputParam{To: to, RateKgPerHaYr: a.RateKgPerHaYr * part.Share, D15N: d15, D18O: d18})
 		}
 		c.Mods = append(c.Mods, mod)
 	}
@@ -179,7 +149,7 @@ func TreatmentChange(s *Site, kb *knowledge.Base, base *Params, t Treatment, siz
 			if to != "out" && s.PoolIndex(to) < 0 {
 				to = f.Fallback
 			}
-			if s.PoolIndex(f.From) < 0 || to == "" || (to != "out" && s.PoolIndex(to) < 0) {
+			if s.PoolIndex(f.From) < 0 || to == "" || (to != "out" && s.PoolIndex(to) < 0) || f.Share.Typical == 0 && f.Share.Range[1] == 0 {
 				continue
 			}
 			key := fmt.Sprintf("%s.moves[%d]", m.ID, k)
@@ -209,7 +179,7 @@ func TreatmentChange(s *Site, kb *knowledge.Base, base *Params, t Treatment, siz
 				Knobs: []Knob{{Kind: KnobFactor, Processes: procs, Value: size(key+".factor", r.Factor)}}})
 		}
 		if g := m.Grazing; g != nil {
-			mod, err := grazingMod(s, base, m.ID, g, size)
+			mod, err := grazingMod(s, m.ID, g, size)
 			if err != nil {
 				return c, err
 			}
@@ -239,15 +209,12 @@ func siteHas(s *Site, proc string) bool {
 }
 
 // grazingMod sizes grazing: the grazing transfers take a share offtake of
-// the grazed pool's outflow, split into export, urine and dung; the NH3
-// lost from urine patches is added to volatilization from ammonium as a
-// flux of nh3_loss times the urine flux (both at the file's pool sizes).
-func grazingMod(s *Site, base *Params, id string, g *knowledge.GrazingForcing, size SizeFunc) (Mod, error) {
+// the grazed pool's outflow, split into export, urine and dung.
+func grazingMod(s *Site, id string, g *knowledge.GrazingForcing, size SizeFunc) (Mod, error) {
 	from := grazedPool(s)
 	off := size(id+".grazing.offtake", g.Offtake)
 	exp := size(id+".grazing.export", g.Export)
 	uri := size(id+".grazing.urine", g.Urine)
-	loss := size(id+".grazing.nh3_loss", g.NH3Loss)
 	js := transfers(s, grazingProcs, from)
 	if len(js) != len(grazingProcs) {
 		return Mod{}, fmt.Errorf("grazing needs the grazing transfers from %s in site %q (add them with WithRoutes)", from, s.ID)
@@ -263,17 +230,6 @@ func grazingMod(s *Site, base *Params, id string, g *knowledge.GrazingForcing, s
 			weights[i] = exp
 		}
 	}
-	fi := s.PoolIndex(from)
-	var other float64
-	for j, t := range s.Transfers {
-		if t.From == fi && !slices.Contains(js, j) {
-			other += base.K[j] * s.PoolKg[fi]
-		}
-	}
-	urine := off / (1 - off) * other * (1 - exp) * uri
 	return Mod{Start: 0, End: math.Inf(1), Label: "grazing",
-		Knobs: []Knob{
-			{Kind: KnobShare, Processes: grazingProcs, From: from, Value: off, Weights: weights},
-			{Kind: KnobAddRate, Processes: []string{"volatilization"}, From: "ammonium", Value: loss * urine},
-		}}, nil
+		Knobs: []Knob{{Kind: KnobShare, Processes: grazingProcs, From: from, Value: off, Weights: weights}}}, nil
 }

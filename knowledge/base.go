@@ -214,9 +214,6 @@ func (b *Base) citations() []citing {
 	for _, m := range b.Measurements {
 		out = append(out, citing{"measurements.yaml", m.Line, m.ID + ".refs", m.Refs})
 	}
-	for _, a := range b.Forcings.Additions {
-		out = append(out, citing{"forcings.yaml", a.Line, "additions." + a.Source + ".refs", a.Refs})
-	}
 	for _, m := range b.Forcings.Management {
 		out = append(out, citing{"forcings.yaml", m.Line, "management." + m.ID + ".refs", m.Refs})
 	}

@@ -15,23 +15,12 @@ type Size struct {
 	Range   []float64 `yaml:"range" json:"range"`
 }
 
-// Forcings are the known treatments of DESIGN §4: how a declared addition
-// and each management tag act on the model.
+// Forcings are the known treatments of DESIGN §4: how each management tag
+// acts on the model. (A declared addition is an input of its source and
+// needs no entry.)
 type Forcings struct {
-	Additions   []AdditionForcing `yaml:"additions" json:"additions"`
-	Management  []Management      `yaml:"management" json:"management"`
-	ContextOnly []string          `yaml:"context_only" json:"context_only"`
-}
-
-// AdditionForcing says what happens to a declared addition of a source at
-// application: the share lost as NH3.
-type AdditionForcing struct {
-	Source  string   `yaml:"source" json:"source"`
-	NH3Loss Size     `yaml:"nh3_loss" json:"nh3_loss"`
-	Note    string   `yaml:"note" json:"note,omitempty"`
-	Refs    []string `yaml:"refs" json:"refs,omitempty"`
-	Status  string   `yaml:"status" json:"status,omitempty"`
-	Line    int      `yaml:"-" json:"-"`
+	Management  []Management `yaml:"management" json:"management"`
+	ContextOnly []string     `yaml:"context_only" json:"context_only"`
 }
 
 // Management is a management tag that acts on the model: one-off moves of N
@@ -79,14 +68,12 @@ type RateForcing struct {
 }
 
 // GrazingForcing sizes grazing: the share of the foliage's outflow eaten
-// (Offtake), the share of the intake leaving the site (Export), the share
-// of excreta returned as urine (the rest as dung), and the share of urine N
-// lost as NH3.
+// (Offtake), the share of the intake leaving the site (Export) and the
+// share of excreta returned as urine (the rest as dung).
 type GrazingForcing struct {
 	Offtake Size `yaml:"offtake" json:"offtake"`
 	Export  Size `yaml:"export" json:"export"`
 	Urine   Size `yaml:"urine" json:"urine"`
-	NH3Loss Size `yaml:"nh3_loss" json:"nh3_loss"`
 }
 
 // Severities of a fire (DESIGN §6).
@@ -108,17 +95,6 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 	checkSize := func(path []any, s Size, lo, hi float64) {
 		if len(s.Range) != 2 || !(s.Range[0] <= s.Typical && s.Typical <= s.Range[1]) || s.Range[0] < lo || s.Range[1] > hi || math.IsNaN(s.Typical) {
 			at(path, "expected {typical, range: [low, high]} with %g ≤ low ≤ typical ≤ high ≤ %g", lo, hi)
-		}
-	}
-	for i := range f.Additions {
-		a := &f.Additions[i]
-		a.Line = doc.Line("additions", i)
-		if _, ok := b.Source(a.Source); !ok {
-			at([]any{"additions", i, "source"}, "unknown source %q", a.Source)
-		}
-		checkSize([]any{"additions", i, "nh3_loss"}, a.NH3Loss, 0, 0.9)
-		if !checkStatus(a.Status) {
-			at([]any{"additions", i, "status"}, "unknown status %q", a.Status)
 		}
 	}
 	checkEffect := func(path []any, moves []MoveForcing, rates []RateForcing) {
@@ -184,7 +160,7 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 			for _, s := range []struct {
 				key string
 				v   Size
-			}{{"offtake", g.Offtake}, {"export", g.Export}, {"urine", g.Urine}, {"nh3_loss", g.NH3Loss}} {
+			}{{"offtake", g.Offtake}, {"export", g.Export}, {"urine", g.Urine}} {
 				checkSize([]any{"management", i, "grazing", s.key}, s.v, 0, 0.95)
 			}
 		}
@@ -241,16 +217,6 @@ func (b *Base) Management(tag string) (*Management, bool) {
 		}
 	}
 	return nil, false
-}
-
-// AdditionForcing returns the application losses of a declared source.
-func (b *Base) AdditionForcing(source string) (AdditionForcing, bool) {
-	for _, a := range b.Forcings.Additions {
-		if a.Source == source {
-			return a, true
-		}
-	}
-	return AdditionForcing{}, false
 }
 
 // ManagementTags lists every management tag a study may use: the forcings

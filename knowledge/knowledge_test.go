@@ -151,9 +151,6 @@ func TestGoldenSummary(t *testing.T) {
 			fmt.Fprintf(&buf, "  undeclared where %+v, %v kg N/ha/yr\n", s.Contexts, s.RateRange)
 		}
 	}
-	for _, a := range b.Forcings.Additions {
-		fmt.Fprintf(&buf, "addition %s NH3 loss %g %v (%s)\n", a.Source, a.NH3Loss.Typical, a.NH3Loss.Range, a.Status)
-	}
 	for _, m := range b.Forcings.Management {
 		fmt.Fprintf(&buf, "management %s %v: %d moves, %d rates, severities %d, grazing %v (%s)\n", m.ID, m.Aliases, len(m.Moves), len(m.Rates), len(m.Severity), m.Grazing != nil, m.Status)
 	}

@@ -68,18 +68,18 @@ func BenchmarkExplain48(b *testing.B) {
 func BenchmarkEvidenceOneCandidate(b *testing.B) {
 	kb, set, st := benchSetup(b)
 	cmp := &st.Comparisons[0]
-	e := &engine{site: st.Site, kb: kb, set: set, cmp: cmp, opt: Options{Seed: 1, Draws: DefaultDraws, ModelError: DefaultModelError}, ctx: st.ContextFor(cmp, kb)}
-	w := newWorker(st.Site)
-	if err := e.setup(w, 0); err != nil {
+	e, err := newEngine(st, cmp, 0, kb, set, Options{Seed: 1, Draws: DefaultDraws, ModelError: DefaultModelError})
+	if err != nil {
 		b.Fatal(err)
 	}
-	k, why := e.compile(set.Candidate("denitrification"), false)
+	w := newWorker(e.site)
+	k, why := e.compile(set.Candidate("more-denitrification"), false)
 	if k == nil {
 		b.Fatal(why)
 	}
 	knobs := []*knob{k}
 	b.ReportAllocs()
 	for b.Loop() {
-		e.evaluate(w, "denitrification", knobs)
+		e.evaluate(w, "more-denitrification", knobs, nil)
 	}
 }

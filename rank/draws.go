@@ -8,15 +8,16 @@ import (
 
 	"nlens/forward"
 	"nlens/knowledge"
-	"nlens/rank/study"
 )
 
-// draw is one nuisance realisation φ: the site's parameters and the δ of
-// every knowledge source (for source candidates).
+// draw is one nuisance realisation φ: the site's parameters, the δ of every
+// undeclared source's parts (key "source/pool": δ15N, δ18O) and the known
+// treatment with its uncertain sizes drawn.
 type draw struct {
-	params  forward.Params
-	srcD15N map[string]float64
-	srcD18O map[string]float64
+	params   forward.Params
+	srcDelta map[string][2]float64
+	forcing  forward.Change
+	severity string
 }
 
 // sampleWithin draws from a knowledge distribution over [lo, hi] with mode
@@ -31,34 +32,34 @@ func sampleWithin(dist string, lo, hi, mode float64, rng rand.Source) float64 {
 	return distuv.NewTriangle(lo, hi, math.Min(math.Max(mode, lo), hi), rng).Rand()
 }
 
-// makeDraws returns n nuisance draws; draw 0 is the nominal site. Every ε
-// the site file does not fix is drawn from its knowledge distribution (ε18
-// from its ε15 times a ratio drawn from the knowledge ratio range); rates
-// with a spread are multiplied by exp(spread·z), z ~ N(0,1) (median kept);
-// inputs named by a knowledge source take δ15N (and δ18O) from its range
-// unless the file fixes them; the nitrification δ18O likewise. Sources the
-// comparison declares with a measured δ keep it.
-func makeDraws(site *forward.Site, kb *knowledge.Base, cmp *study.Comparison, n int, rng rand.Source) []draw {
-	measured15 := map[string]float64{}
-	measured18 := map[string]float64{}
-	for _, a := range cmp.Additions {
-		if a.D15N != nil {
-			measured15[a.Source] = *a.D15N
-		}
-		if a.D18O != nil {
-			measured18[a.Source] = *a.D18O
-		}
-	}
+// makeDraws returns n nuisance draws; draw 0 is the nominal site with the
+// treatment at its typical sizes. Every ε the site file does not fix is
+// drawn from its knowledge distribution (ε18 from its ε15 times a ratio
+// drawn from the knowledge ratio range); rates with a spread are multiplied
+// by exp(spread·z), z ~ N(0,1) (median kept); inputs named by a knowledge
+// source take δ15N (and δ18O) from its range unless the file fixes them;
+// the nitrification δ18O likewise; every forcing size (removal shares,
+// uptake reductions and their recovery time, unmeasured δ of additions)
+// from its triangular range, and a fire's severity, when the
+// study does not give it, uniformly from low, moderate and high.
+func makeDraws(site *forward.Site, kb *knowledge.Base, tr forward.Treatment, n int, rng rand.Source) ([]draw, error) {
 	norm := distuv.Normal{Mu: 0, Sigma: 1, Src: rng}
 	out := make([]draw, n)
 	for d := range out {
 		p := site.Params()
-		dr := draw{srcD15N: map[string]float64{}, srcD18O: map[string]float64{}}
-		for _, s := range kb.Sources {
-			dr.srcD15N[s.ID] = s.D15NPermil
-			if s.D18OPermil != nil {
-				dr.srcD18O[s.ID] = *s.D18OPermil
+		dr := draw{srcDelta: map[string][2]float64{}}
+		part := func(s knowledge.Source, pt knowledge.SourcePart) {
+			d15, d18 := pt.D15NPermil, site.NitrificationD18O
+			if pt.D18OPermil != nil {
+				d18 = *pt.D18OPermil
 			}
+			if d > 0 {
+				d15 = sampleWithin(knowledge.DistTriangular, pt.D15NRangePermil[0], pt.D15NRangePermil[1], pt.D15NPermil, rng)
+				if pt.D18OPermil != nil {
+					d18 = sampleWithin(knowledge.DistTriangular, pt.D18ORangePermil[0], pt.D18ORangePermil[1], *pt.D18OPermil, rng)
+				}
+			}
+			dr.srcDelta[s.ID+"/"+pt.Pool] = [2]float64{d15, d18}
 		}
 		if d > 0 {
 			for j, t := range site.Transfers {
@@ -82,34 +83,47 @@ func makeDraws(site *forward.Site, kb *knowledge.Base, cmp *study.Comparison, n 
 				if !ok {
 					continue
 				}
-				if !in.D15NFixed {
-					p.Inputs[i].D15N = sampleWithin(knowledge.DistTriangular, src.D15NRangePermil[0], src.D15NRangePermil[1], src.D15NPermil, rng)
+				pt, ok := src.PartFor(site.Pools[in.To])
+				if !ok {
+					pt = src.Parts[0]
 				}
-				if !in.D18OFixed && src.D18OPermil != nil {
-					p.Inputs[i].D18O = sampleWithin(knowledge.DistTriangular, src.D18ORangePermil[0], src.D18ORangePermil[1], *src.D18OPermil, rng)
+				if !in.D15NFixed {
+					p.Inputs[i].D15N = sampleWithin(knowledge.DistTriangular, pt.D15NRangePermil[0], pt.D15NRangePermil[1], pt.D15NPermil, rng)
+				}
+				if !in.D18OFixed && pt.D18OPermil != nil {
+					p.Inputs[i].D18O = sampleWithin(knowledge.DistTriangular, pt.D18ORangePermil[0], pt.D18ORangePermil[1], *pt.D18OPermil, rng)
 				}
 			}
 			if !site.NitrificationD18OFixed {
 				no := kb.NitrateOxygen
 				p.NitrificationD18O = sampleWithin(knowledge.DistTriangular, no.RangePermil[0], no.RangePermil[1], no.NitrificationD18OPermil, rng)
 			}
-			for _, s := range kb.Sources {
-				dr.srcD15N[s.ID] = sampleWithin(knowledge.DistTriangular, s.D15NRangePermil[0], s.D15NRangePermil[1], s.D15NPermil, rng)
-				if s.D18OPermil != nil {
-					dr.srcD18O[s.ID] = sampleWithin(knowledge.DistTriangular, s.D18ORangePermil[0], s.D18ORangePermil[1], *s.D18OPermil, rng)
-				}
+		}
+		for _, s := range kb.Sources {
+			for _, pt := range s.Parts {
+				part(s, pt)
 			}
 		}
-		for id, v := range measured15 {
-			dr.srcD15N[id] = v
+		size := forward.Nominal
+		if d > 0 {
+			size = func(_ string, sz knowledge.Size) float64 {
+				return sampleWithin(knowledge.DistTriangular, sz.Range[0], sz.Range[1], sz.Typical, rng)
+			}
 		}
-		for id, v := range measured18 {
-			dr.srcD18O[id] = v
+		t := tr
+		if t.Severity == "" && d > 0 {
+			t.Severity = knowledge.Severities[rand.New(rng).IntN(len(knowledge.Severities))]
 		}
+		dr.severity = t.Severity
+		c, err := forward.TreatmentChange(site, kb, t, size)
+		if err != nil {
+			return nil, err
+		}
+		dr.forcing = c
 		dr.params = p
 		out[d] = dr
 	}
-	return out
+	return out, nil
 }
 
 // Weighting of draws by the control's absolute values.

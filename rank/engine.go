@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"strings"
 
 	"nlens/forward"
 	"nlens/knowledge"
@@ -17,41 +16,57 @@ import (
 // to match the 0.5 ‰ default's share of a typical δ shift).
 const modelErrorLog = 0.25
 
-// Knob kinds are applied in this order: factors, then the uptake share
-// (which rescales what the factors left), then new inputs.
-var knobOrder = map[string]int{rules.KnobScale: 0, rules.KnobNitrateShare: 1, rules.KnobSource: 2}
-
-// knob is a candidate compiled against a site.
+// knob is a candidate response compiled against a site.
 type knob struct {
-	cand     *rules.Candidate
-	kind     string
-	procs    []string
-	source   string
-	pool     int
-	ax       axis
-	baseline float64 // no-change magnitude
+	cand *rules.Candidate
+	kind string
+	// fk is the forward knob with its value unset (shares, fixation); nil
+	// for a source.
+	fk *forward.Knob
+	// source and its receiving pools (source candidates).
+	source string
+	parts  []sourcePart
+	ax     axis
+	// baseline is the no-change magnitude on the nominal site (a share, the
+	// fixation rate; 0 for a source); baseD is the baseline share in each
+	// draw, so that a share moves by the same logit step in every draw.
+	baseline float64
+	baseD    []float64
+	// fluxJ are the transfers whose flux the magnitude implies.
+	fluxJ []int
+}
+
+type sourcePart struct {
+	pool  int
+	share float64
+	name  string // pool name, for the draws' δ
 }
 
 // worker holds one goroutine's workspaces.
 type worker struct {
-	model *forward.Model
-	p     forward.Params
-	x     forward.State
+	model  *forward.Model
+	run    forward.Run
+	change forward.Change
+	mods   []forward.Mod
+	x      forward.State
 }
 
 func newWorker(site *forward.Site) *worker { return &worker{model: forward.NewModel(site)} }
 
-// engine scores the candidates of one comparison.
+// engine scores the candidate responses of one comparison.
 type engine struct {
 	site  *forward.Site
 	kb    *knowledge.Base
 	set   *rules.Set
 	cmp   *study.Comparison
+	tr    forward.Treatment
 	opt   Options
 	ctx   rules.Context
 	draws []draw
 	logw  []float64 // ln of the normalised draw weights
 	needO bool
+	// treated is set when the comparison's treatment acts on the model.
+	treated bool
 	// observed observables, their shifts and variances.
 	obs      []forward.Observable
 	shift    []float64
@@ -60,15 +75,18 @@ type engine struct {
 	base     []forward.State
 	baseVals [][]float64
 	warnings []string
-	// siteCertain is set when no site parameter is drawn (every ε fixed or
-	// fixed by knowledge, no rate spreads, no drawn input δ): all draws then
-	// share one baseline and only source candidates need more than draw 0.
+	// siteCertain is set when no site parameter or forcing size is drawn:
+	// all draws then share one baseline and only source candidates need
+	// more than draw 0.
 	siteCertain bool
 }
 
-// siteIsCertain reports whether the nuisance draws leave the site itself
-// unchanged.
+// siteIsCertain reports whether the nuisance draws leave the site and the
+// treatment unchanged.
 func (e *engine) siteIsCertain() bool {
+	if e.treated {
+		return false
+	}
 	s := e.site
 	for _, t := range s.Transfers {
 		eff, _ := e.kb.Effect(t.Process)
@@ -113,11 +131,29 @@ func (e *engine) warnf(format string, args ...any) {
 	e.warnings = append(e.warnings, fmt.Sprintf(format, args...))
 }
 
+// routes lists every transfer the candidates and the treatment may turn on.
+func routes(site *forward.Site, kb *knowledge.Base, set *rules.Set, tr forward.Treatment) []forward.Route {
+	out := forward.TreatmentRoutes(site, kb, tr)
+	for i := range set.Candidates {
+		out = append(out, ResponseRoutes(&set.Candidates[i])...)
+	}
+	return out
+}
+
+// forwardKnob maps a candidate's knob kind to the model's.
+var forwardKnob = map[string]forward.KnobKind{
+	rules.KnobShare:         forward.KnobShare,
+	rules.KnobNitrateShare:  forward.KnobNitrateShare,
+	rules.KnobTransferRatio: forward.KnobTransferRatio,
+	rules.KnobRoute:         forward.KnobRoute,
+	rules.KnobFixation:      forward.KnobFixation,
+}
+
 // compile turns a candidate into a knob for this site (with the quadrature
 // of a single candidate, or of one axis of a pair), or says why it cannot be
 // tested here.
 func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
-	k := &knob{cand: c, kind: c.Knob.Kind, procs: c.Knob.Processes, source: c.Source}
+	k := &knob{cand: c, kind: c.Knob.Kind, source: c.Source}
 	s := e.site
 	for _, n := range c.Needs {
 		switch n {
@@ -131,26 +167,43 @@ func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 			}
 		}
 	}
+	m := c.Magnitude
+	lo, hi := m.Min, m.Max
 	switch k.kind {
-	case rules.KnobScale:
-		if !slices.ContainsFunc(k.procs, func(p string) bool { return hasProcess(s, p) }) {
-			return nil, fmt.Sprintf("the site has no %s transfer", strings.Join(k.procs, " or "))
-		}
-		k.baseline = 1
-	case rules.KnobNitrateShare:
-		p := s.Params()
-		k.baseline = p.NitrateShare(s)
 	case rules.KnobSource:
 		src, _ := e.kb.Source(c.Source)
-		k.pool = s.PoolIndex(src.Pool)
-		if k.pool < 0 {
-			return nil, fmt.Sprintf("the site has no %s pool for this source", src.Pool)
-		}
-		for _, a := range e.cmp.Additions {
-			if a.Source == c.Source {
-				k.ax = fixedAxis(a.RateKgPerHaYr)
-				return k, ""
+		for _, p := range src.Parts {
+			i := s.PoolIndex(p.Pool)
+			if i < 0 {
+				return nil, fmt.Sprintf("the site has no %s pool for this source", p.Pool)
 			}
+			k.parts = append(k.parts, sourcePart{pool: i, share: p.Share, name: p.Pool})
+		}
+	case rules.KnobShare, rules.KnobNitrateShare, rules.KnobTransferRatio, rules.KnobRoute, rules.KnobFixation:
+		fk := responseKnob(s, e.kb, c)
+		if k.kind == rules.KnobShare && len(forward.KnobTransfers(s, fk)) == 0 {
+			return nil, "the site has no transfer for it"
+		}
+		k.fk = &fk
+		k.fluxJ = forward.KnobTransfers(s, fk)
+		k.baseline = forward.KnobValue(s, &e.draws[0].params, fk)
+		if rules.IsShare(k.kind) {
+			k.baseD = make([]float64, len(e.draws))
+			for d := range e.draws {
+				k.baseD[d] = forward.KnobValue(s, &e.draws[d].params, fk)
+			}
+		}
+		switch c.Direction {
+		case rules.More:
+			lo = math.Max(k.baseline, m.Min)
+		case rules.Less:
+			hi = k.baseline
+		}
+		if !(hi > lo*(1+1e-6)) {
+			if c.Direction == rules.More {
+				return nil, fmt.Sprintf("its baseline %s is already at the largest value considered (%s)", fmtShare(k.baseline, k.kind), fmtShare(m.Max, k.kind))
+			}
+			return nil, fmt.Sprintf("its baseline %s is already at the smallest value considered (%s)", fmtShare(k.baseline, k.kind), fmtShare(m.Min, k.kind))
 		}
 	default:
 		return nil, ""
@@ -159,53 +212,69 @@ func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 	if pair {
 		fine = fine2
 	}
-	k.ax = newAxis(c.Magnitude, nodesFor(c.Magnitude, pair), fine)
+	k.ax = newAxis(m.Prior, lo, hi, nodesFor(m.Prior, pair), fine)
 	return k, ""
+}
+
+func fmtShare(v float64, kind string) string {
+	if rules.IsShare(kind) {
+		return fmt.Sprintf("%.3g %%", 100*v)
+	}
+	return fmt.Sprintf("%.3g kg N/ha/yr", v)
 }
 
 func hasProcess(s *forward.Site, proc string) bool {
 	return slices.ContainsFunc(s.Transfers, func(t forward.Transfer) bool { return t.Process == proc && t.RateKgPerHaYr > 0 })
 }
 
-// apply sets the knobs at magnitudes theta on a copy of draw d's parameters
-// held in w.p.
-func (e *engine) apply(w *worker, d int, knobs []*knob, theta []float64) error {
-	w.p.CopyFrom(&e.draws[d].params)
-	for _, kind := range []string{rules.KnobScale, rules.KnobNitrateShare, rules.KnobSource} {
-		for i, k := range knobs {
-			if k.kind != kind {
-				continue
-			}
-			switch kind {
-			case rules.KnobScale:
-				for _, proc := range k.procs {
-					w.p.Scale(e.site, proc, theta[i])
-				}
-			case rules.KnobNitrateShare:
-				if err := w.p.SetNitrateShare(e.site, theta[i]); err != nil {
-					return err
-				}
-			case rules.KnobSource:
-				d18o, ok := e.draws[d].srcD18O[k.source]
-				if !ok {
-					d18o = w.p.NitrificationD18O
-				}
-				w.p.AddInput(k.pool, theta[i], e.draws[d].srcD15N[k.source], d18o)
-			}
-		}
+// shareInDraw moves a nominal share θ to draw d: the same step in logit
+// from the draw's own baseline as from the nominal baseline, so that a
+// response keeps its direction in every draw.
+func (k *knob) shareInDraw(theta float64, d int) float64 {
+	b0, bd := k.baseline, k.baseD[d]
+	if !(b0 > 0 && b0 < 1 && bd > 0 && bd < 1) {
+		return theta
 	}
-	return nil
+	return logistic(logit(theta) - logit(b0) + logit(bd))
 }
 
-// run computes the changed state for knobs at theta under draw d into w.x.
+// changeFor writes into w.change the treatment of draw d with the knobs at
+// magnitudes theta added as a sustained response.
+func (e *engine) changeFor(w *worker, d int, knobs []*knob, theta []float64) {
+	f := &e.draws[d].forcing
+	w.mods = append(w.mods[:0], f.Mods...)
+	if len(knobs) > 0 {
+		mod := forward.Mod{Start: 0, End: math.Inf(1)}
+		for i, k := range knobs {
+			switch {
+			case k.kind == rules.KnobSource:
+				for _, p := range k.parts {
+					ds := e.draws[d].srcDelta[k.source+"/"+p.name]
+					mod.Inputs = append(mod.Inputs, forward.InputParam{To: p.pool, RateKgPerHaYr: theta[i] * p.share, D15N: ds[0], D18O: ds[1]})
+				}
+			default:
+				fk := *k.fk
+				fk.Value = theta[i]
+				if k.baseD != nil {
+					fk.Value = k.shareInDraw(theta[i], d)
+				}
+				mod.Knobs = append(mod.Knobs, fk)
+			}
+		}
+		w.mods = append(w.mods, mod)
+	}
+	w.change = forward.Change{Moves: f.Moves, Mods: w.mods}
+}
+
+// run computes the state at the comparison's horizon for knobs at theta
+// under draw d into w.x; the parameters then in force are w.run.Final().
 func (e *engine) run(w *worker, d int, knobs []*knob, theta []float64, withO bool) error {
-	if err := e.apply(w, d, knobs, theta); err != nil {
-		return err
-	}
+	e.changeFor(w, d, knobs, theta)
+	p := &e.draws[d].params
 	if e.cmp.Years != nil {
-		return w.model.Advance(&w.p, &e.base[d], *e.cmp.Years, withO, &w.x)
+		return w.run.Advance(w.model, p, &w.change, &e.base[d], *e.cmp.Years, withO, &w.x)
 	}
-	return w.model.Steady(&w.p, withO, &w.x)
+	return w.run.Steady(w.model, p, &w.change, withO, &w.x)
 }
 
 // predict writes the predicted shifts of the observed observables; a state
@@ -217,8 +286,9 @@ func (e *engine) predict(w *worker, d int, knobs []*knob, theta []float64, out [
 		}
 		return
 	}
+	p := w.run.Final()
 	for i, o := range e.obs {
-		out[i] = o.Shift(e.baseVals[d][i], o.Value(&w.x, &w.p))
+		out[i] = o.Shift(e.baseVals[d][i], o.Value(&w.x, p))
 	}
 }
 
@@ -240,7 +310,11 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 		e.needO = e.needO || bound.Kind == forward.KindDelta18
 	}
 	rng := newRand(e.opt.Seed, seedStream, 0)
-	e.draws = makeDraws(e.site, e.kb, e.cmp, e.opt.Draws, rng)
+	var err error
+	e.draws, err = makeDraws(e.site, e.kb, e.tr, e.opt.Draws, rng)
+	if err != nil {
+		return err
+	}
 	n := len(e.draws)
 	e.base = make([]forward.State, n)
 	e.baseVals = make([][]float64, n)
@@ -299,4 +373,53 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 		e.warnf("%s", p)
 	}
 	return nil
+}
+
+// ResponseRoutes are the transfers a candidate may turn on that a site can
+// lack (add them with forward.Site.WithRoutes before ResponseMod).
+func ResponseRoutes(c *rules.Candidate) []forward.Route {
+	var out []forward.Route
+	for _, r := range c.Routes {
+		out = append(out, forward.Route{Process: r.Process, From: r.From, To: r.To, FallbackTo: r.Fallback})
+	}
+	return out
+}
+
+// ResponseMod returns the sustained modification a candidate makes at
+// magnitude value on the site: a share (or transfer ratio, nitrate share,
+// route share) set to value, the fixation input set to value kg N/ha/yr,
+// or an undeclared source entering at value kg N/ha/yr at its typical δ.
+// It is how `simulate --change CANDIDATE=VALUE` applies a candidate, the
+// same mapping explain uses on the nominal site.
+func ResponseMod(site *forward.Site, kb *knowledge.Base, c *rules.Candidate, value float64) (forward.Mod, error) {
+	mod := forward.Mod{Start: 0, End: math.Inf(1), Label: c.Label}
+	switch c.Knob.Kind {
+	case rules.KnobSource:
+		ins, err := forward.SourceInputs(site, kb, c.Source, value)
+		if err != nil {
+			return mod, err
+		}
+		mod.Inputs = ins
+	case rules.KnobNone:
+		return mod, fmt.Errorf("%s changes nothing", c.ID)
+	default:
+		fk := responseKnob(site, kb, c)
+		fk.Value = value
+		mod.Knobs = []forward.Knob{fk}
+	}
+	return mod, nil
+}
+
+// responseKnob is the model knob a (non-source) candidate turns, value unset;
+// a fixation knob adds its N to the fixation source's pool on a site that
+// has no fixation input.
+func responseKnob(site *forward.Site, kb *knowledge.Base, c *rules.Candidate) forward.Knob {
+	fk := forward.Knob{Kind: forwardKnob[c.Knob.Kind], Processes: c.Knob.Processes, From: c.Knob.From}
+	if c.Knob.Kind == rules.KnobFixation {
+		src, _ := kb.Source(forward.FixationSource)
+		if to := site.PoolIndex(src.Pool); to >= 0 {
+			fk.Input = &forward.InputParam{To: to, D15N: src.D15NPermil}
+		}
+	}
+	return fk
 }

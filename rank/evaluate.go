@@ -7,6 +7,8 @@ import (
 	"sort"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"nlens/rules"
 )
 
 // scored is one hypothesis evaluated on its quadrature grid.
@@ -22,9 +24,11 @@ type scored struct {
 	logq []float64
 	// logw are the log weights of the draws used (all draws, or only draw 0
 	// with weight 1 when the site is certain).
-	logw   []float64
-	logZ   float64 // log evidence
-	signal float64 // max over f of √Σ_o (E_d pred)²/var
+	logw []float64
+	logZ float64 // log evidence
+	// signal is the largest departure of the draw-averaged predictions from
+	// none's, over fine points and observables, in observed standard errors.
+	signal float64
 }
 
 // fineCount is the number of fine points of the hypothesis.
@@ -47,8 +51,9 @@ func (s *scored) fineTheta(f int, theta []float64) []float64 {
 }
 
 // evaluate runs the forward model at the coarse nodes, carries predictions
-// to the fine grid, and computes the likelihood of every (fine point, draw).
-func (e *engine) evaluate(w *worker, id string, knobs []*knob) *scored {
+// to the fine grid, and computes the likelihood of every (fine point, draw)
+// and the departure from none (nil when evaluating none itself).
+func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *scored {
 	s := &scored{id: id, knobs: knobs, nd: e.drawsFor(knobs), no: len(e.obs)}
 	s.logw = e.logw
 	if s.nd < len(e.draws) {
@@ -81,7 +86,7 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob) *scored {
 		}
 	}
 	s.pred = interpolate(coarse, knobs, s.nc, s.nf, nd*no)
-	s.likelihood(e)
+	s.likelihood(e, none)
 	return s
 }
 
@@ -121,8 +126,10 @@ func interpolate(coarse []float64, knobs []*knob, nc, nf []int, blk int) []float
 	return cur
 }
 
-// likelihood fills logq and logZ from the predictions, and the signal.
-func (s *scored) likelihood(e *engine) {
+// likelihood fills logq and logZ from the predictions, and the departure
+// from none's predictions (draw by draw, then averaged with the draw
+// weights) in observed standard errors.
+func (s *scored) likelihood(e *engine, none *scored) {
 	nF, nd, no := s.fineCount(), s.nd, s.no
 	s.logq = make([]float64, nF*nd)
 	logPrior := -math.Log(float64(nF))
@@ -140,40 +147,32 @@ func (s *scored) likelihood(e *engine) {
 		for d := range nd {
 			var ll float64
 			p := s.pred[(f*nd+d)*no:]
+			var p0 []float64
+			if none != nil {
+				p0 = none.pred[min(d, none.nd-1)*no:]
+			}
 			for o := range no {
 				r := e.shift[o] - p[o]
 				ll -= 0.5 * r * r / e.variance[o]
-				mean[o] += w[d] * p[o]
+				if p0 != nil {
+					mean[o] += w[d] * (p[o] - p0[o])
+				}
 			}
 			if math.IsNaN(ll) {
 				ll = math.Inf(-1)
 			}
 			s.logq[f*nd+d] = s.logw[d] + logPrior + ll + norm
 		}
-		var sig float64
 		for o := range no {
-			sig += mean[o] * mean[o] / e.variance[o]
-		}
-		if !math.IsNaN(sig) {
-			s.signal = math.Max(s.signal, math.Sqrt(sig))
+			if v := math.Abs(mean[o]) / e.cmp.Observed[o].SE; !math.IsNaN(v) {
+				s.signal = math.Max(s.signal, v)
+			}
 		}
 	}
 	s.logZ = logSumExp(s.logq)
 	for i := range s.logq {
 		s.logq[i] -= s.logZ
 	}
-}
-
-// noneScored is the no-change hypothesis: every prediction is zero.
-func (e *engine) noneScored() *scored {
-	s := &scored{id: "none", nd: 1, no: len(e.obs), pred: make([]float64, len(e.obs))}
-	var ll float64
-	for o := range s.no {
-		ll += -0.5*e.shift[o]*e.shift[o]/e.variance[o] - 0.5*math.Log(2*math.Pi*e.variance[o])
-	}
-	s.logq = []float64{0}
-	s.logZ = ll
-	return s
 }
 
 // moments returns the posterior mean and sd of each observed observable's
@@ -208,54 +207,92 @@ func (s *scored) fit(e *engine, m []Moments) Fit {
 	return Fit{Chi2: chi2, DOF: s.no, P: p}
 }
 
-// magnitudes summarises each knob's marginal posterior on its fine axis.
+// atBoundShare is the share of the prior range (on its integration scale)
+// within which a 5 % or 95 % quantile counts as reaching the bound: a flat
+// posterior reaches both bounds, a posterior piled against one reaches it.
+const atBoundShare = 0.05
+
+// marginal returns the posterior mass of each fine point of axis a.
+func (s *scored) marginal(a int) []float64 {
+	marg := make([]float64, s.nf[a])
+	inner := s.nd
+	for _, v := range s.nf[a+1:] {
+		inner *= v
+	}
+	for i, lq := range s.logq {
+		marg[(i/inner)%s.nf[a]] += math.Exp(lq)
+	}
+	return marg
+}
+
+// magnitudes summarises each knob's marginal posterior on its fine axis:
+// the median with the 5–95 % interval (quantiles interpolated within the
+// equal-prior-mass cells on the integration scale, so the median always
+// lies inside the interval), and which prior bounds the interval reaches.
 func (s *scored) magnitudes() []Magnitude {
 	var out []Magnitude
 	for a, k := range s.knobs {
-		marg := make([]float64, s.nf[a])
-		inner := s.nd
-		for _, v := range s.nf[a+1:] {
-			inner *= v
+		marg := s.marginal(a)
+		c := k.cand
+		noun := c.Noun
+		if noun == "" {
+			noun = c.Label
 		}
-		for i, lq := range s.logq {
-			f := (i / inner) % s.nf[a]
-			marg[f] += math.Exp(lq)
+		m := Magnitude{Candidate: c.ID, Kind: magnitudeKind(k.kind), Direction: c.Direction, Process: noun, Of: c.Magnitude.Of,
+			Processes: c.Knob.Processes, Unit: c.Magnitude.Unit, Baseline: k.baseline}
+		if k.kind == rules.KnobSource {
+			m.Baseline = 0
 		}
-		m := Magnitude{Candidate: k.cand.ID, Unit: k.cand.Magnitude.Unit, Baseline: k.baseline, Fixed: k.ax.fixed}
-		best := 0
-		for f, v := range marg {
-			if v > marg[best] {
-				best = f
-			}
+		ax := &k.ax
+		uq := func(q float64) float64 { return quantileU(marg, ax.ulo, ax.uhi, q) }
+		u05, u50, u95 := uq(0.05), uq(0.5), uq(0.95)
+		m.Low, m.Best, m.High = ax.toNatural(u05), ax.toNatural(u50), ax.toNatural(u95)
+		w := atBoundShare * (ax.uhi - ax.ulo)
+		lowAt, highAt := u05 <= ax.ulo+w, u95 >= ax.uhi-w
+		switch {
+		case lowAt && highAt:
+			m.AtBound = "both"
+		case lowAt:
+			m.AtBound = "low"
+		case highAt:
+			m.AtBound = "high"
 		}
-		m.Best = k.ax.fine[best]
-		m.Low, m.High = quantile(marg, k.ax.fine, 0.05), quantile(marg, k.ax.fine, 0.95)
-		var total float64
-		for f, v := range marg {
-			total += v
-			if k.ax.fine[f] > k.baseline {
-				m.ProbMore += v
-			}
-		}
-		m.ProbMore /= total
+		m.PriorLow, m.PriorHigh = ax.lo, ax.hi
 		out = append(out, m)
 	}
 	return out
 }
 
-// quantile returns the fine value at which the cumulative marginal reaches q.
-func quantile(marg, values []float64, q float64) float64 {
-	var total, c float64
+// magnitudeKind is the JSON kind of a knob's magnitude (DESIGN §7).
+func magnitudeKind(kind string) string {
+	switch kind {
+	case rules.KnobShare, rules.KnobRoute:
+		return "share"
+	case rules.KnobTransferRatio:
+		return "transfer-ratio"
+	case rules.KnobNitrateShare:
+		return "nitrate-share"
+	}
+	return "input"
+}
+
+// quantileU returns the q quantile of a marginal over nf equal cells
+// spanning [ulo, uhi] on the integration scale, linear within a cell.
+func quantileU(marg []float64, ulo, uhi, q float64) float64 {
+	var total float64
 	for _, v := range marg {
 		total += v
 	}
+	h := (uhi - ulo) / float64(len(marg))
+	var c float64
 	for i, v := range marg {
-		c += v / total
-		if c >= q {
-			return values[i]
+		p := v / total
+		if c+p >= q && p > 0 {
+			return ulo + h*(float64(i)+(q-c)/p)
 		}
+		c += p
 	}
-	return values[len(values)-1]
+	return uhi
 }
 
 // sample draws n (fine point, draw) pairs from the hypothesis's posterior.

@@ -191,21 +191,53 @@ type entry struct {
 	adj    []rules.Adjustment
 	cands  []*rules.Candidate
 	isPair bool
+	// merged: counted with none (its predictions never leave none's by a
+	// standard error and it does not fit markedly better than none).
+	merged bool
+}
+
+// mergeEvidenceFactor: a candidate whose evidence exceeds none's by this
+// factor is never counted with none (DESIGN §5).
+const mergeEvidenceFactor = 3
+
+// newEngine prepares the engine of one comparison: the site with every
+// transfer the candidates and the treatment may turn on, the draws, their
+// baselines and weights.
+func newEngine(st *study.Study, cmp *study.Comparison, index uint64, kb *knowledge.Base, set *rules.Set, opt Options) (*engine, error) {
+	tr := cmp.Declared()
+	site, err := st.Site.WithRoutes(kb, routes(st.Site, kb, set, tr)...)
+	if err != nil {
+		return nil, err
+	}
+	e := &engine{site: site, kb: kb, set: set, cmp: cmp, tr: tr, opt: opt, ctx: st.ContextFor(cmp, kb), treated: !tr.Empty(kb)}
+	if err := e.setup(newWorker(site), index); err != nil {
+		return nil, err
+	}
+	return e, nil
 }
 
 func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, index uint64, kb *knowledge.Base, set *rules.Set, opt Options, prog *progress) (*ComparisonResult, error) {
-	e := &engine{site: st.Site, kb: kb, set: set, cmp: cmp, opt: opt, ctx: st.ContextFor(cmp, kb)}
-	if err := e.setup(newWorker(st.Site), index); err != nil {
+	e, err := newEngine(st, cmp, index, kb, set, opt)
+	if err != nil {
 		return nil, err
 	}
-	cr := &ComparisonResult{Name: cmp.Name, Years: cmp.Years, Observed: cmp.Observed}
+	site := e.site
+	tr := e.tr
+	cr := &ComparisonResult{Name: cmp.Name, Years: cmp.Years, Observed: cmp.Observed, Treatment: describeTreatment(kb, tr)}
 
-	// Singles.
+	// Singles: every response the site can express, and the undeclared
+	// sources its context makes possible.
 	var singles []*rules.Candidate
 	var compiled []*knob
 	for i := range set.Candidates {
 		c := &set.Candidates[i]
 		if c.ID == rules.None {
+			continue
+		}
+		if c.Source != "" && !rules.SourcePossible(kb, c, e.ctx) {
+			if !slices.Contains(e.ctx.Declared, c.Source) {
+				cr.RuledOut = append(cr.RuledOut, c.Source)
+			}
 			continue
 		}
 		k, why := e.compile(c, false)
@@ -218,73 +250,40 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 		singles = append(singles, c)
 		compiled = append(compiled, k)
 	}
+	none := e.evaluate(newWorker(site), rules.None, nil, nil)
 	scores := make([]*scored, len(singles))
-	parallel(len(singles), opt.Workers, st.Site, func(i int, w *worker) {
+	parallel(len(singles), opt.Workers, site, func(i int, w *worker) {
 		if ctx.Err() != nil {
 			return
 		}
-		scores[i] = e.evaluate(w, singles[i].ID, []*knob{compiled[i]})
+		scores[i] = e.evaluate(w, singles[i].ID, []*knob{compiled[i]}, none)
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	none := set.Candidate(rules.None)
-	nonePrior, noneAdj := set.Prior(none, e.ctx)
-	entries := []entry{{s: e.noneScored(), prior: nonePrior, adj: noneAdj, cands: []*rules.Candidate{none}}}
+	noneCand := set.Candidate(rules.None)
+	nonePrior, noneAdj := set.Prior(noneCand, e.ctx)
+	entries := []entry{{s: none, prior: nonePrior, adj: noneAdj, cands: []*rules.Candidate{noneCand}}}
+	mergeable := func(s *scored) bool {
+		return s.signal < indistinguishableSignal && s.logZ <= none.logZ+math.Log(mergeEvidenceFactor)
+	}
 	for i, c := range singles {
 		p, adj := set.Prior(c, e.ctx)
-		entries = append(entries, entry{s: scores[i], prior: p, adj: adj, cands: []*rules.Candidate{c}})
+		entries = append(entries, entry{s: scores[i], prior: p, adj: adj, cands: []*rules.Candidate{c}, merged: mergeable(scores[i])})
 	}
 
-	// Pairs of the best distinguishable singles, and of declared additions
-	// with the best processes.
-	ranked := slices.Clone(entries[1:])
-	sort.SliceStable(ranked, func(a, b int) bool {
-		return ranked[a].s.logZ+math.Log(ranked[a].prior) > ranked[b].s.logZ+math.Log(ranked[b].prior)
-	})
-	var top []entry
-	for _, en := range ranked {
-		if en.s.signal >= indistinguishableSignal && en.prior > 0 && len(top) < pairsFrom {
-			top = append(top, en)
-		}
-	}
-	type pairJob struct{ a, b entry }
-	var jobs []pairJob
-	seen := map[string]bool{}
-	addPair := func(a, b entry) {
-		ida, idb := a.cands[0].ID, b.cands[0].ID
-		if ida == idb || seen[ida+"+"+idb] || seen[idb+"+"+ida] {
-			return
-		}
-		seen[ida+"+"+idb] = true
-		jobs = append(jobs, pairJob{a, b})
-	}
-	for i := range top {
-		for j := i + 1; j < len(top); j++ {
-			addPair(top[i], top[j])
-		}
-	}
-	for _, en := range ranked {
-		if en.cands[0].Source != "" && slices.Contains(e.ctx.Declared, en.cands[0].Source) {
-			for _, t := range top {
-				if t.cands[0].Knob.Kind != rules.KnobSource {
-					addPair(en, t)
-				}
-			}
-		}
-	}
+	// Pairs (DESIGN §5).
+	jobs := e.pairJobs(entries, none)
 	pairScores := make([]*scored, len(jobs))
-	parallel(len(jobs), opt.Workers, st.Site, func(i int, w *worker) {
+	parallel(len(jobs), opt.Workers, site, func(i int, w *worker) {
 		if ctx.Err() != nil {
 			return
 		}
-		a, b := jobs[i].a, jobs[i].b
+		a, b := jobs[i][0], jobs[i][1]
 		ka, _ := e.compile(a.cands[0], true)
 		kbb, _ := e.compile(b.cands[0], true)
-		knobs := []*knob{ka, kbb}
-		sort.SliceStable(knobs, func(x, y int) bool { return knobOrder[knobs[x].kind] < knobOrder[knobs[y].kind] })
-		pairScores[i] = e.evaluate(w, a.cands[0].ID+"+"+b.cands[0].ID, knobs)
+		pairScores[i] = e.evaluate(w, a.cands[0].ID+"+"+b.cands[0].ID, []*knob{ka, kbb}, none)
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
@@ -293,8 +292,8 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 	for i, j := range jobs {
 		s := pairScores[i]
 		cands := []*rules.Candidate{s.knobs[0].cand, s.knobs[1].cand}
-		adj := append(slices.Clone(j.a.adj), j.b.adj...)
-		entries = append(entries, entry{s: s, prior: set.PairPrior * j.a.prior * j.b.prior, adj: adj, cands: cands, isPair: true})
+		adj := append(slices.Clone(j[0].adj), j[1].adj...)
+		entries = append(entries, entry{s: s, prior: set.PairPrior * j[0].prior * j[1].prior, adj: adj, cands: cands, isPair: true, merged: mergeable(s)})
 	}
 
 	// Posteriors: "none" holds NoneShare of the prior, the rest is shared
@@ -310,22 +309,22 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 			entries[i].prior = (1 - set.NoneShare) * entries[i].prior / weightSum
 		}
 	}
-	priorSum := 1.0
 	logPost := make([]float64, len(entries))
 	for i, en := range entries {
-		logPost[i] = en.s.logZ + math.Log(en.prior/priorSum)
+		logPost[i] = en.s.logZ + math.Log(en.prior)
 	}
 	lz := logSumExp(logPost)
 	hyps := make([]Hypothesis, len(entries))
 	for i, en := range entries {
 		h := Hypothesis{
-			ID:          en.s.id,
-			LogEvidence: en.s.logZ,
-			PriorProb:   en.prior / priorSum,
-			Posterior:   math.Exp(logPost[i] - lz),
-			Adjustments: en.adj,
-			Pair:        en.isPair,
-			MaxSignal:   en.s.signal,
+			ID:                en.s.id,
+			LogEvidence:       en.s.logZ,
+			PriorProb:         en.prior,
+			Posterior:         math.Exp(logPost[i] - lz),
+			Adjustments:       en.adj,
+			Pair:              en.isPair,
+			MaxSignal:         en.s.signal,
+			Indistinguishable: en.merged,
 		}
 		var labels, mechs []string
 		for _, c := range en.cands {
@@ -333,6 +332,12 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 			mechs = append(mechs, c.Mechanism)
 			h.Refs = append(h.Refs, c.Refs...)
 			h.Tests = append(h.Tests, c.Tests...)
+		}
+		if i == 0 {
+			labels = []string{set.NoneLabel(e.treated)}
+		}
+		if !en.isPair {
+			h.Direction = en.cands[0].Direction
 		}
 		h.Label = strings.Join(labels, " + ")
 		h.Mechanism = strings.Join(mechs, "; ")
@@ -344,9 +349,8 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 			h.Predicted[ob.Name] = m[o]
 		}
 		h.Fit = en.s.fit(e, m)
-		if en.s.id != rules.None {
+		if i > 0 {
 			h.Magnitudes = en.s.magnitudes()
-			h.Indistinguishable = en.s.signal < indistinguishableSignal
 		}
 		hyps[i] = h
 	}
@@ -362,7 +366,7 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 		}
 	}
 	if len(quiet) > 0 {
-		e.warnf("%s would not move the observed quantities beyond their noise anywhere in %s prior range, so the data cannot speak to %s; %s counted with none", strings.Join(quiet, ", "), map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1])
+		e.warnf("%s would not move the observed quantities beyond their standard error from what %s predicts anywhere in %s prior range, so the data cannot speak to %s; %s counted with %q", strings.Join(quiet, ", "), hyps[0].Label, map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1], hyps[0].Label)
 	}
 	order := make([]int, len(hyps))
 	for i := range order {
@@ -388,6 +392,9 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 		e.warnf("no candidate reproduces the observed shifts: the best, %s, fails its fit check (χ² = %.1f on %d observables, p = %.2g). The cause may be a change nlens does not model, a site model unlike this site, or an error in the data; the ranking below is not evidence for any of them", top.ID, top.Fit.Chi2, top.Fit.DOF, top.Fit.P)
 	}
 
+	// Fluxes implied by the magnitudes of the hypotheses a reader sees.
+	e.fluxes(cr, sortedEntries, index)
+
 	// Next measurements and paths under the leading hypotheses.
 	var leading []int
 	var mass float64
@@ -411,6 +418,152 @@ func explainOne(ctx context.Context, st *study.Study, cmp *study.Comparison, ind
 	cr.Warnings = e.warnings
 	prog.add(4)
 	return cr, nil
+}
+
+// pairsFromWide is how many singles are paired when the best single fails
+// its fit check; complementFrom how many are searched for singles that
+// explain different observables.
+const (
+	pairsFromWide  = 7
+	complementFrom = 8
+	maxPairs       = 16
+)
+
+// pairJobs chooses the pairs to score (DESIGN §5): the best singles with
+// each other, singles that each explain observables the other does not,
+// and a wider set when the best single fails its fit check. Two directions
+// of one response are never paired, and each pair lists its parts in the
+// order of the rules set.
+func (e *engine) pairJobs(entries []entry, none *scored) [][2]entry {
+	ranked := slices.Clone(entries[1:])
+	sort.SliceStable(ranked, func(a, b int) bool {
+		return ranked[a].s.logZ+math.Log(ranked[a].prior) > ranked[b].s.logZ+math.Log(ranked[b].prior)
+	})
+	var pool []entry
+	for _, en := range ranked {
+		if !en.merged && en.prior > 0 {
+			pool = append(pool, en)
+		}
+	}
+	if len(pool) == 0 {
+		return nil
+	}
+	from := pairsFrom
+	if pool[0].s.fit(e, pool[0].s.moments()).P < noFitP {
+		from = pairsFromWide
+	}
+	var jobs [][2]entry
+	seen := map[string]bool{}
+	order := func(c *rules.Candidate) int {
+		return slices.IndexFunc(e.set.Candidates, func(o rules.Candidate) bool { return o.ID == c.ID })
+	}
+	add := func(a, b entry) {
+		ca, cb := a.cands[0], b.cands[0]
+		if ca.ID == cb.ID || (ca.Response != "" && ca.Response == cb.Response) || len(jobs) >= maxPairs {
+			return
+		}
+		if order(cb) < order(ca) {
+			a, b = b, a
+		}
+		key := a.cands[0].ID + "+" + b.cands[0].ID
+		if seen[key] {
+			return
+		}
+		seen[key] = true
+		jobs = append(jobs, [2]entry{a, b})
+	}
+	top := pool[:min(from, len(pool))]
+	for i := range top {
+		for j := i + 1; j < len(top); j++ {
+			add(top[i], top[j])
+		}
+	}
+	// Complements: each explains (moves its predicted mean at least half a
+	// standard error closer to the observation than none's) an observable
+	// the other does not.
+	cand := pool[:min(complementFrom, len(pool))]
+	noneM := none.moments()
+	explains := make([][]bool, len(cand))
+	for i, en := range cand {
+		m := en.s.moments()
+		explains[i] = make([]bool, len(e.obs))
+		for o := range e.obs {
+			se := e.cmp.Observed[o].SE
+			explains[i][o] = math.Abs(e.shift[o]-m[o].Mean) < math.Abs(e.shift[o]-noneM[o].Mean)-0.5*se
+		}
+	}
+	only := func(a, b []bool) bool {
+		for o := range a {
+			if a[o] && !b[o] {
+				return true
+			}
+		}
+		return false
+	}
+	for i := range cand {
+		for j := i + 1; j < len(cand); j++ {
+			if only(explains[i], explains[j]) && only(explains[j], explains[i]) {
+				add(cand[i], cand[j])
+			}
+		}
+	}
+	return jobs
+}
+
+// describeTreatment records what the treatment applies at typical sizes.
+func describeTreatment(kb *knowledge.Base, tr forward.Treatment) Treatment {
+	out := Treatment{Severity: tr.Severity}
+	for _, a := range tr.Additions {
+		src, _ := kb.Source(a.Source)
+		ap := AppliedAddition{Source: a.Source, Label: src.Label, RateKgPerHaYr: a.RateKgPerHaYr, D15N: src.D15NPermil, DurationYears: a.DurationYears}
+		if a.D15N != nil {
+			ap.D15N, ap.Measured = *a.D15N, true
+		}
+		out.Additions = append(out.Additions, ap)
+	}
+	for _, tag := range tr.Management {
+		m, ok := kb.Management(tag)
+		if !ok {
+			continue
+		}
+		am := AppliedManagement{Tag: tag, Label: m.Label, Refs: m.Refs}
+		moves, rates := m.Moves, m.Rates
+		if len(m.Severity) > 0 {
+			sev := tr.Severity
+			if sev == "" {
+				sev = "moderate"
+				am.Actions = append(am.Actions, "severity not given: drawn over low, moderate and high (typical values below are moderate)")
+			}
+			moves, rates = m.Severity[sev].Moves, m.Severity[sev].Rates
+		}
+		pct := func(s knowledge.Size) string {
+			return fmt.Sprintf("%.0f %% (%.0f–%.0f %%)", 100*s.Typical, 100*s.Range[0], 100*s.Range[1])
+		}
+		for _, mv := range moves {
+			to := "out of the site"
+			if mv.To != "out" {
+				to = "to " + mv.To
+				if mv.Fallback != "" {
+					to += " (or " + mv.Fallback + ")"
+				}
+			}
+			am.Actions = append(am.Actions, fmt.Sprintf("%s: %s of %s %s at the start", mv.Label, pct(mv.Share), mv.From, to))
+		}
+		for _, r := range rates {
+			a := fmt.Sprintf("%s: %s of the usual rate constant", r.Label, pct(r.Factor))
+			if r.Years != nil {
+				a += fmt.Sprintf(" for %.3g years (%.3g–%.3g)", r.Years.Typical, r.Years.Range[0], r.Years.Range[1])
+			}
+			am.Actions = append(am.Actions, a)
+		}
+		if g := m.Grazing; g != nil {
+			am.Actions = append(am.Actions,
+				fmt.Sprintf("grazers take %s of the foliage's outflow", pct(g.Offtake)),
+				fmt.Sprintf("%s of what they eat leaves the site; of the rest %s returns as urine to soil NH4+ and the remainder as dung", pct(g.Export), pct(g.Urine)))
+		}
+		out.Management = append(out.Management, am)
+	}
+	return out
 }
 
 func uniq(s []string) []string {

@@ -10,31 +10,30 @@ import (
 
 // Quadrature sizes. Coarse nodes are where the forward model runs; fine
 // points are where the likelihood is evaluated, from spline-interpolated
-// predictions. A log-uniform prior over 0.1–10 spans 4.6 in ln θ: 13 nodes
-// are 0.38 apart and 121 fine points 0.04 apart, finer than the likelihood
-// width of a well-measured shift.
-//
-// The share of uptake taken as nitrate bends the predictions sharply near
-// its ends (one uptake route vanishes), so a uniform-prior axis gets more
-// nodes. TestSplineAccuracy holds the spline to 0.1 ‰ (singles) and 0.2 ‰
-// (pairs) of direct forward runs.
+// predictions. Shares are integrated on logit(s) and rates on ln(x): a
+// share prior from 0.2 to 0.95 spans 4.3 logit units, so 13 nodes are 0.36
+// apart and 121 fine points 0.035 apart, finer than the likelihood width
+// of a well-measured shift. Near a share of 1 the predictions bend sharply
+// (the other outflows of the pool vanish), so share axes get more nodes
+// than rate axes. TestSplineAccuracy holds the spline to 0.1 ‰ (singles)
+// and 0.2 ‰ (pairs) of direct forward runs.
 const (
-	coarse1        = 11
-	fine1          = 121
-	coarse2        = 7
-	fine2          = 41
-	coarseUniform1 = 21
-	coarseUniform2 = 15
+	coarse1      = 11
+	fine1        = 121
+	coarse2      = 7
+	fine2        = 41
+	coarseShare1 = 15
+	coarseShare2 = 9
 )
 
 // nodesFor returns the coarse node count for a prior in a single (pair
 // false) or pair evaluation.
-func nodesFor(m rules.Magnitude, pair bool) int {
+func nodesFor(prior string, pair bool) int {
 	switch {
-	case m.Prior == rules.PriorUniform && pair:
-		return coarseUniform2
-	case m.Prior == rules.PriorUniform:
-		return coarseUniform1
+	case prior == rules.PriorLogitUniform && pair:
+		return coarseShare2
+	case prior == rules.PriorLogitUniform:
+		return coarseShare1
 	case pair:
 		return coarse2
 	}
@@ -43,27 +42,28 @@ func nodesFor(m rules.Magnitude, pair bool) int {
 
 // axis is the quadrature of one magnitude prior.
 type axis struct {
-	prior      string
-	lo, hi     float64   // prior bounds in natural units
-	nodes      []float64 // coarse magnitudes, natural units
-	fine       []float64 // fine magnitudes (midpoints of equal prior mass)
-	w          [][]float64
-	fixed      bool // a single known magnitude (a declared addition)
-	fixedValue float64
+	prior    string
+	lo, hi   float64   // prior bounds in natural units
+	ulo, uhi float64   // the same on the integration scale (ln or logit)
+	nodes    []float64 // coarse magnitudes, natural units
+	fine     []float64 // fine magnitudes (midpoints of equal prior mass)
+	w        [][]float64
 }
 
-// newAxis builds nodes and fine points for a prior with nc coarse nodes and
-// nf fine points. The fine points are the midpoints of nf cells of equal
-// prior mass, so each has weight 1/nf; nodes span the prior's ends, so the
-// spline never extrapolates.
-func newAxis(m rules.Magnitude, nc, nf int) axis {
-	a := axis{prior: m.Prior, lo: m.Min, hi: m.Max}
-	to := func(u float64) float64 { return u }
-	ulo, uhi := m.Min, m.Max
-	if m.Prior == rules.PriorLogUniform {
-		to = math.Exp
-		ulo, uhi = math.Log(m.Min), math.Log(m.Max)
+// newAxis builds nodes and fine points for a prior (log-uniform on
+// lo–hi, or logit-uniform for a share) with nc coarse nodes and nf fine
+// points. The fine points are the midpoints of nf cells of equal prior
+// mass, so each has weight 1/nf; nodes span the prior's ends, so the spline
+// never extrapolates.
+func newAxis(prior string, lo, hi float64, nc, nf int) axis {
+	a := axis{prior: prior, lo: lo, hi: hi}
+	to := math.Exp
+	ulo, uhi := math.Log(lo), math.Log(hi)
+	if prior == rules.PriorLogitUniform {
+		to = logistic
+		ulo, uhi = logit(lo), logit(hi)
 	}
+	a.ulo, a.uhi = ulo, uhi
 	uNodes := make([]float64, nc)
 	for i := range nc {
 		uNodes[i] = ulo + (uhi-ulo)*float64(i)/float64(nc-1)
@@ -76,11 +76,6 @@ func newAxis(m rules.Magnitude, nc, nf int) axis {
 	}
 	a.w = splineWeights(uNodes, uFine)
 	return a
-}
-
-// fixedAxis is a magnitude known exactly.
-func fixedAxis(v float64) axis {
-	return axis{prior: "fixed", lo: v, hi: v, nodes: []float64{v}, fine: []float64{v}, w: [][]float64{{1}}, fixed: true, fixedValue: v}
 }
 
 // splineWeights returns W with W[f][k] the weight of node k at fine point f
@@ -105,4 +100,18 @@ func splineWeights(xs, at []float64) [][]float64 {
 		}
 	}
 	return w
+}
+
+// logit is ln(s/(1−s)).
+func logit(s float64) float64 { return math.Log(s / (1 - s)) }
+
+// logistic is the inverse of logit.
+func logistic(u float64) float64 { return 1 / (1 + math.Exp(-u)) }
+
+// toNatural maps a point of the integration scale to the magnitude.
+func (a *axis) toNatural(u float64) float64 {
+	if a.prior == rules.PriorLogitUniform {
+		return logistic(u)
+	}
+	return math.Exp(u)
 }

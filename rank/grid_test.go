@@ -21,11 +21,11 @@ func TestSplineAccuracy(t *testing.T) {
 		t.Fatal(err)
 	}
 	cmp := &st.Comparisons[0]
-	e := &engine{site: st.Site, kb: kb, set: set, cmp: cmp, opt: Options{Seed: 1, Draws: 2, ModelError: DefaultModelError}, ctx: st.ContextFor(cmp, kb)}
-	w := newWorker(st.Site)
-	if err := e.setup(w, 0); err != nil {
+	e, err := newEngine(st, cmp, 0, kb, set, Options{Seed: 1, Draws: 2, ModelError: DefaultModelError})
+	if err != nil {
 		t.Fatal(err)
 	}
+	w := newWorker(e.site)
 	check := func(ids []string, tol float64) {
 		var knobs []*knob
 		for _, id := range ids {
@@ -35,7 +35,7 @@ func TestSplineAccuracy(t *testing.T) {
 			}
 			knobs = append(knobs, k)
 		}
-		s := e.evaluate(w, "check", knobs)
+		s := e.evaluate(w, "check", knobs, nil)
 		got := make([]float64, len(e.obs))
 		theta := make([]float64, len(knobs))
 		var worst float64
@@ -52,10 +52,10 @@ func TestSplineAccuracy(t *testing.T) {
 			t.Errorf("%v: spline error %.3g ‰ exceeds %g ‰", ids, worst, tol)
 		}
 	}
-	for _, id := range []string{"nitrification", "denitrification", "nitrate-leaching", "mineralization", "mycorrhizal-route", "uptake-form", "source:manure"} {
+	for _, id := range []string{"more-nitrification", "less-nitrification", "more-denitrification", "more-nitrate-leaching", "less-mineralization", "less-mycorrhizal-route", "more-fungal-transfer", "more-nitrate-uptake", "less-nitrate-uptake", "more-plant-uptake", "less-plant-uptake", "more-volatilization", "more-fixation", "source:deposition"} {
 		check([]string{id}, 0.1)
 	}
-	check([]string{"nitrification", "nitrate-leaching"}, 0.2)
-	check([]string{"mineralization", "source:wastewater"}, 0.2)
-	check([]string{"uptake-form", "mycorrhizal-route"}, 0.2)
+	check([]string{"more-nitrification", "more-nitrate-leaching"}, 0.2)
+	check([]string{"less-mineralization", "source:deposition"}, 0.2)
+	check([]string{"more-nitrate-uptake", "less-mycorrhizal-route"}, 0.2)
 }

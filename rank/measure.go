@@ -6,6 +6,8 @@ import (
 	"slices"
 	"sort"
 
+	"gonum.org/v1/gonum/stat"
+
 	"nlens/forward"
 	"nlens/knowledge"
 	"nlens/rules"
@@ -66,7 +68,7 @@ func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, ent
 			for i, it := range items {
 				v := math.NaN()
 				if ok {
-					v = it.obs.Shift(baseVals[d][i], it.obs.Value(&w.x, &w.p))
+					v = it.obs.Shift(baseVals[d][i], it.obs.Value(&w.x, w.run.Final()))
 				}
 				if !math.IsNaN(v) && !math.IsInf(v, 0) {
 					preds[k][i] = append(preds[k][i], v)
@@ -153,38 +155,37 @@ func meanSD(v []float64) (float64, float64) {
 const pathPoints = 41
 
 // paths predicts how the observed observables move over time under each
-// leading hypothesis at its best magnitudes on the nominal site.
+// leading hypothesis at its posterior-median magnitudes on the nominal site
+// with the treatment at its typical sizes.
 func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int) []Path {
 	w := newWorker(e.site)
 	var out []Path
 	for _, i := range leading {
 		s := entries[i].s
 		h := cr.Hypotheses[i]
-		if s.id == rules.None {
-			continue
-		}
 		theta := make([]float64, len(h.Magnitudes))
 		for a, m := range h.Magnitudes {
 			theta[a] = m.Best
 		}
-		if err := e.apply(w, 0, s.knobs, theta); err != nil {
-			continue
-		}
+		e.changeFor(w, 0, s.knobs, theta)
 		var times []float64
 		var err error
 		if e.cmp.Years != nil {
 			times, err = forward.EvenTimes(math.Max(2**e.cmp.Years, 2), pathPoints)
 		} else {
-			var horizon float64
-			horizon, err = w.model.SettlingTime(&w.p, &e.base[0], e.obs)
-			if err == nil {
-				times, err = forward.LogTimes(horizon, pathPoints)
+			var p forward.Params
+			if err = w.change.ParamsAt(e.site, &e.draws[0].params, math.Inf(1), &p); err == nil {
+				var horizon float64
+				horizon, err = w.model.SettlingTime(&p, &e.base[0], e.obs)
+				if err == nil {
+					times, err = forward.LogTimes(horizon, pathPoints)
+				}
 			}
 		}
 		if err != nil {
 			continue
 		}
-		states, err := w.model.Trajectory(&w.p, &e.base[0], times, true)
+		states, params, err := w.run.Trajectory(w.model, &e.draws[0].params, &w.change, &e.base[0], times, true)
 		if err != nil {
 			continue
 		}
@@ -192,11 +193,88 @@ func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int) []P
 		for o, ob := range e.obs {
 			vals := make([]float64, len(states))
 			for t := range states {
-				vals[t] = ob.Shift(e.baseVals[0][o], ob.Value(&states[t], &w.p))
+				vals[t] = ob.Shift(e.baseVals[0][o], ob.Value(&states[t], &params[t]))
 			}
 			pth.Shifts[ob.Name] = vals
 		}
 		out = append(out, pth)
 	}
 	return out
+}
+
+// Flux summaries are computed for the hypotheses a reader sees.
+const (
+	fluxHypotheses = 10
+	fluxSamples    = 32
+)
+
+// fluxes fills each shown hypothesis's magnitudes with the flux they imply
+// at the observation time: over posterior samples, the flux of each knob's
+// processes under the treatment against the same draw's baseline flux.
+func (e *engine) fluxes(cr *ComparisonResult, entries []entry, index uint64) {
+	w := newWorker(e.site)
+	for i := range cr.Hypotheses {
+		h := &cr.Hypotheses[i]
+		if i >= fluxHypotheses || len(h.Magnitudes) == 0 || (h.Posterior <= 0 && i > 0) {
+			continue
+		}
+		s := entries[i].s
+		rng := newRand(e.opt.Seed, index, 2000+uint64(i))
+		n := len(s.knobs)
+		vals := make([][]float64, n)
+		ratios := make([][]float64, n)
+		theta := make([]float64, n)
+		for _, fd := range s.sample(fluxSamples, rng) {
+			theta = s.fineTheta(fd[0], theta)
+			d := fd[1]
+			if e.run(w, d, s.knobs, theta, false) != nil {
+				continue
+			}
+			for a, k := range s.knobs {
+				var now, was float64
+				switch {
+				case k.kind == rules.KnobSource:
+					now = theta[a]
+				case k.kind == rules.KnobFixation:
+					now = forward.KnobValue(e.site, w.run.Final(), *k.fk)
+					was = forward.KnobValue(e.site, &e.draws[d].params, *k.fk)
+				default:
+					now = forward.FluxAt(e.site, w.run.Final(), &w.x, k.fluxJ)
+					was = forward.FluxAt(e.site, &e.draws[d].params, &e.base[d], k.fluxJ)
+				}
+				vals[a] = append(vals[a], now)
+				if was > 0 {
+					ratios[a] = append(ratios[a], now/was)
+				}
+			}
+		}
+		for a, k := range s.knobs {
+			if len(vals[a]) == 0 {
+				continue
+			}
+			f := &FluxImplied{}
+			switch k.kind {
+			case rules.KnobSource:
+				f.Baseline = 0
+			case rules.KnobFixation:
+				f.Baseline = forward.KnobValue(e.site, &e.draws[0].params, *k.fk)
+			default:
+				f.Baseline = forward.FluxAt(e.site, &e.draws[0].params, &e.base[0], k.fluxJ)
+			}
+			f.Median, f.Low, f.High = quantiles(vals[a])
+			if len(ratios[a]) == len(vals[a]) {
+				f.HasRatio = true
+				f.Ratio, f.RatioLow, f.RatioHi = quantiles(ratios[a])
+			}
+			h.Magnitudes[a].Flux = f
+		}
+	}
+}
+
+// quantiles returns the median and the 5 % and 95 % points of v.
+func quantiles(v []float64) (median, low, high float64) {
+	s := slices.Clone(v)
+	slices.Sort(s)
+	at := func(q float64) float64 { return stat.Quantile(q, stat.LinInterp, s, nil) }
+	return at(0.5), at(0.05), at(0.95)
 }

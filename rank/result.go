@@ -50,6 +50,12 @@ type ComparisonResult struct {
 	Name     string
 	Years    *float64
 	Observed []study.Observed
+	// Treatment is what was applied to the treatment arm in every
+	// hypothesis (DESIGN §4).
+	Treatment Treatment
+	// RuledOut are undeclared sources the site context makes impossible,
+	// named once in a note rather than ranked.
+	RuledOut []string
 	// Hypotheses sorted by posterior, highest first.
 	Hypotheses []Hypothesis
 	// Measurements sorted by information gain, highest first.
@@ -66,10 +72,46 @@ type ComparisonResult struct {
 	NoFit bool
 }
 
+// Treatment is the known treatment as applied: the declared additions and
+// management with the typical sizes of their uncertain parts (the draws
+// vary them within their knowledge ranges).
+type Treatment struct {
+	Additions  []AppliedAddition
+	Management []AppliedManagement
+	// Severity of a fire as given ("" when drawn over all three).
+	Severity string
+}
+
+// AppliedAddition is a declared input of a source.
+type AppliedAddition struct {
+	Source, Label string
+	RateKgPerHaYr float64
+	// D15N is the δ15N used: measured, or the source's typical value.
+	D15N          float64
+	Measured      bool
+	DurationYears float64
+}
+
+// AppliedManagement is a management tag that acts on the model, with what
+// it does at typical sizes.
+type AppliedManagement struct {
+	Tag, Label string
+	// Actions describe each move and rate change with its typical size
+	// and range.
+	Actions []string
+	Refs    []string
+}
+
+// Empty reports whether nothing was applied.
+func (t Treatment) Empty() bool { return len(t.Additions) == 0 && len(t.Management) == 0 }
+
 // Hypothesis is one scored candidate (a single knob or a pair).
 type Hypothesis struct {
-	ID        string
-	Label     string
+	ID    string
+	Label string
+	// Direction is "more" or "less" for a single process response, ""
+	// for none, a source and a pair.
+	Direction string
 	Mechanism string
 	Refs      []string
 	Tests     []string
@@ -88,26 +130,49 @@ type Hypothesis struct {
 	// Indistinguishable is set when the candidate's predictions stay within
 	// the noise over its whole prior: its weight is counted with "none".
 	Indistinguishable bool
-	// MaxSignal is the largest predicted departure from no change over the
-	// prior, in combined standard errors (√χ² of the shift against zero).
+	// MaxSignal is the largest departure of the predictions from none's
+	// over the prior, in observed standard errors.
 	MaxSignal float64
 	Pair      bool
 }
 
-// Magnitude summarises a knob's posterior: the mode on the fine grid and
-// the 5–95 % interval, in the prior's units.
+// Magnitude summarises a knob's posterior, typed so that renderers never
+// infer meaning from ids or unit strings (DESIGN §5, §7).
 type Magnitude struct {
 	Candidate string
-	Best      float64
-	Low, High float64
-	Unit      string
-	// Baseline is the no-change value (1 for factors, the site's share for
-	// uptake form, 0 for inputs).
+	// Kind is share, transfer-ratio, nitrate-share or input.
+	Kind string
+	// Direction is more or less for a response, "" for a source.
+	Direction string
+	// Process names the response without direction ("nitrification") or
+	// the source; Of says what a share is of ("the NH4+ outflow").
+	Process   string
+	Of        string
+	Processes []string
+	// Baseline is the no-change value on the nominal site (a share, the
+	// fixation rate; 0 for an undeclared source).
 	Baseline float64
-	Fixed    bool // known in advance (a declared addition)
-	// ProbMore is the posterior probability that the magnitude is above its
-	// no-change value (more of the process; a higher nitrate share).
-	ProbMore float64
+	// Best is the posterior median; Low and High the 90 % interval.
+	Best, Low, High float64
+	Unit            string
+	// AtBound says which prior bound the interval reaches: "low", "high",
+	// "both" or "" (then "≤ High", "≥ Low" or "anywhere in the prior").
+	AtBound             string
+	PriorLow, PriorHigh float64
+	// Flux is what the magnitude means as a flux at the observation time
+	// (nil where it does not apply).
+	Flux *FluxImplied
+}
+
+// FluxImplied is the flux of a response's processes at the observation
+// time under the treatment, against the same flux at baseline, over
+// posterior samples (kg N/ha/yr; ratio new/baseline).
+type FluxImplied struct {
+	Baseline                 float64
+	Median, Low, High        float64
+	Ratio, RatioLow, RatioHi float64
+	// HasRatio is false when the baseline flux is zero (a new input).
+	HasRatio bool
 }
 
 // Moments are a mean and standard deviation.
@@ -141,7 +206,7 @@ type Measurement struct {
 }
 
 // Path is the predicted shift of observables over time under a hypothesis
-// at its best magnitude (nominal site).
+// at its posterior-median magnitudes (nominal site and treatment).
 type Path struct {
 	Hypothesis string
 	Years      []float64

@@ -316,41 +316,10 @@ func (d *drafter) academic(h rank.Hypothesis) string {
 }
 
 func (d *drafter) academicPart(m rank.Magnitude) string {
-	ci := func(lo, hi string) string { return "90 % credible interval " + lo + "–" + hi }
-	switch {
-	case strings.HasPrefix(m.Candidate, rules.SourcePrefix):
-		name := d.n.sourceName(m.Candidate)
-		if m.Fixed {
-			return fmt.Sprintf("the declared %s addition (%s %s)", name, sig2(m.Best), rateMarkdown)
-		}
-		return fmt.Sprintf("a new input of %s of about %s %s (%s)", name, sig2(m.Best), rateMarkdown, ci(sig2(m.Low), sig2(m.High)))
-	case m.Unit == shareUnit:
-		dir := "a change in the form of plant N uptake"
-		switch {
-		case m.ProbMore >= directionSure:
-			dir = "a shift of plant uptake toward nitrate"
-		case m.ProbMore <= 1-directionSure:
-			dir = "a shift of plant uptake toward ammonium"
-		}
-		return fmt.Sprintf("%s, with about %d %% of uptake as nitrate against %d %% in the site model (%s %%)",
-			dir, pct(m.Best), pct(m.Baseline), ci(fmt.Sprint(pct(m.Low)), fmt.Sprint(pct(m.High))))
+	if strings.HasPrefix(m.Candidate, rules.SourcePrefix) {
+		return magnitudeWords{m}.sentence("an undeclared input of " + d.n.sourceName(m.Candidate))
 	}
-	p := d.n.process(m.Candidate)
-	rel := "the control rate"
-	if strings.Contains(m.Unit, "flux") {
-		rel = "the control flux"
-	}
-	switch {
-	case m.ProbMore >= directionSure && spansBaseline(m):
-		return fmt.Sprintf("an increase in %s, most probably about %s-fold relative to %s, although the 90 %% credible interval (%s–%s) still includes no change", p, sig2(m.Best), rel, sig2(m.Low), sig2(m.High))
-	case m.ProbMore <= 1-directionSure && spansBaseline(m):
-		return fmt.Sprintf("a reduction of %s, most probably to about %s of %s, although the 90 %% credible interval (%s–%s) still includes no change", p, sig2(m.Best), rel, sig2(m.Low), sig2(m.High))
-	case m.ProbMore >= directionSure:
-		return fmt.Sprintf("an approximately %s-fold increase in %s relative to %s (%s)", sig2(m.Best), p, rel, ci(sig2(m.Low), sig2(m.High)))
-	case m.ProbMore <= 1-directionSure:
-		return fmt.Sprintf("a reduction of %s to about %s of %s (%s)", p, sig2(m.Best), rel, ci(sig2(m.Low), sig2(m.High)))
-	}
-	return fmt.Sprintf("a change in %s whose direction the data do not constrain (%s times %s)", p, ci(sig2(m.Low), sig2(m.High)), rel)
+	return magnitudeWords{m}.sentence(m.Direction + " " + m.Process)
 }
 
 // patternText is a comparison's observed pattern as a noun phrase, and

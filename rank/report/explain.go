@@ -24,9 +24,36 @@ type ExplainJSON struct {
 type ComparisonJSON struct {
 	Name         string               `json:"name"`
 	Observed     map[string]ShiftJSON `json:"observed"`
+	Treatment    TreatmentJSON        `json:"treatment"`
 	Hypotheses   []HypothesisJSON     `json:"hypotheses"`
 	Measurements []MeasurementJSON    `json:"measurements"`
-	Warnings     []string             `json:"warnings"`
+	// RuledOut lists undeclared sources the site context rules out.
+	RuledOut []string `json:"ruled_out_sources"`
+	Warnings []string `json:"warnings"`
+}
+
+// TreatmentJSON is what was applied to the treatment arm in every
+// hypothesis, at typical sizes (the draws vary them within their ranges).
+type TreatmentJSON struct {
+	Additions  []AdditionJSON   `json:"additions"`
+	Management []ManagementJSON `json:"management"`
+	Severity   *string          `json:"severity"`
+}
+
+// AdditionJSON is one declared addition.
+type AdditionJSON struct {
+	Source        string   `json:"source"`
+	Rate          float64  `json:"rate_kg_ha_yr"`
+	D15N          float64  `json:"d15n"`
+	D15NMeasured  bool     `json:"d15n_measured"`
+	DurationYears *float64 `json:"duration_years"`
+}
+
+// ManagementJSON is one management forcing with what it does.
+type ManagementJSON struct {
+	Tag     string   `json:"tag"`
+	Label   string   `json:"label"`
+	Actions []string `json:"actions"`
 }
 
 // ShiftJSON is an observed shift and its standard error.
@@ -37,23 +64,34 @@ type ShiftJSON struct {
 
 // HypothesisJSON is one ranked explanation.
 type HypothesisJSON struct {
-	ID        string         `json:"id"`
-	Label     string         `json:"label"`
-	Posterior float64        `json:"posterior"`
+	ID        string  `json:"id"`
+	Label     string  `json:"label"`
+	Direction *string `json:"direction"`
+	Posterior float64 `json:"posterior"`
+	// Magnitude is the first (for a single, the only) magnitude.
 	Magnitude *MagnitudeJSON `json:"magnitude"`
-	// Magnitudes lists both magnitudes of a pair (the first is also in
-	// Magnitude).
-	Magnitudes []MagnitudeJSON        `json:"magnitudes,omitempty"`
+	// Magnitudes lists every magnitude, in the order of the parts of id
+	// and label.
+	Magnitudes []MagnitudeJSON        `json:"magnitudes"`
 	Predicted  map[string]MomentsJSON `json:"predicted"`
 	Fit        FitJSON                `json:"fit"`
 }
 
-// MagnitudeJSON is a best magnitude with its 90 % interval.
+// MagnitudeJSON is a magnitude's posterior median with its 90 % interval
+// and what it means as a flux (DESIGN §7).
 type MagnitudeJSON struct {
-	Best float64 `json:"best"`
-	Low  float64 `json:"low"`
-	High float64 `json:"high"`
-	Unit string  `json:"unit"`
+	Candidate    string   `json:"candidate"`
+	Kind         string   `json:"kind"`
+	Baseline     float64  `json:"baseline"`
+	Best         float64  `json:"best"`
+	Low          float64  `json:"low"`
+	High         float64  `json:"high"`
+	Unit         string   `json:"unit"`
+	Of           string   `json:"of,omitempty"`
+	AtBound      *string  `json:"at_bound"`
+	FluxBaseline *float64 `json:"flux_baseline"`
+	Flux         *float64 `json:"flux"`
+	FluxRatio    *float64 `json:"flux_ratio"`
 }
 
 // MomentsJSON is a mean and sd.
@@ -100,17 +138,16 @@ func ToJSON(r *rank.Result) ExplainJSON {
 		for _, o := range c.Observed {
 			cj.Observed[o.Observable] = ShiftJSON{round6(o.Shift), round6(o.SE)}
 		}
+		cj.Treatment = treatmentJSON(c.Treatment)
+		cj.RuledOut = append([]string{}, c.RuledOut...)
 		for _, h := range c.Hypotheses {
-			hj := HypothesisJSON{ID: h.ID, Label: h.Label, Posterior: round6(h.Posterior), Predicted: map[string]MomentsJSON{},
-				Fit: FitJSON{round6(h.Fit.Chi2), h.Fit.DOF, round6(h.Fit.P)}}
+			hj := HypothesisJSON{ID: h.ID, Label: h.Label, Direction: nullable(h.Direction), Posterior: round6(h.Posterior), Predicted: map[string]MomentsJSON{},
+				Magnitudes: []MagnitudeJSON{}, Fit: FitJSON{round6(h.Fit.Chi2), h.Fit.DOF, round6(h.Fit.P)}}
 			for _, m := range h.Magnitudes {
-				mj := MagnitudeJSON{round6(m.Best), round6(m.Low), round6(m.High), m.Unit}
-				if hj.Magnitude == nil {
-					hj.Magnitude = &mj
-				}
-				if h.Pair {
-					hj.Magnitudes = append(hj.Magnitudes, mj)
-				}
+				hj.Magnitudes = append(hj.Magnitudes, magnitudeJSON(m))
+			}
+			if len(hj.Magnitudes) > 0 {
+				hj.Magnitude = &hj.Magnitudes[0]
 			}
 			for k, m := range h.Predicted {
 				hj.Predicted[k] = MomentsJSON{round6(m.Mean), round6(m.SD)}
@@ -125,6 +162,46 @@ func ToJSON(r *rank.Result) ExplainJSON {
 			cj.Measurements = append(cj.Measurements, mj)
 		}
 		out.Comparisons = append(out.Comparisons, cj)
+	}
+	return out
+}
+
+// nullable is nil for "" (JSON null).
+func nullable(s string) *string {
+	if s == "" {
+		return nil
+	}
+	return &s
+}
+
+func ptr6(v float64) *float64 {
+	r := round6(v)
+	return &r
+}
+
+func magnitudeJSON(m rank.Magnitude) MagnitudeJSON {
+	mj := MagnitudeJSON{Candidate: m.Candidate, Kind: m.Kind, Baseline: round6(m.Baseline), Best: round6(m.Best), Low: round6(m.Low), High: round6(m.High),
+		Unit: m.Unit, Of: m.Of, AtBound: nullable(m.AtBound)}
+	if f := m.Flux; f != nil {
+		mj.FluxBaseline, mj.Flux = ptr6(f.Baseline), ptr6(f.Median)
+		if f.HasRatio {
+			mj.FluxRatio = ptr6(f.Ratio)
+		}
+	}
+	return mj
+}
+
+func treatmentJSON(t rank.Treatment) TreatmentJSON {
+	out := TreatmentJSON{Additions: []AdditionJSON{}, Management: []ManagementJSON{}, Severity: nullable(t.Severity)}
+	for _, a := range t.Additions {
+		aj := AdditionJSON{Source: a.Source, Rate: round6(a.RateKgPerHaYr), D15N: round6(a.D15N), D15NMeasured: a.Measured}
+		if a.DurationYears > 0 {
+			aj.DurationYears = ptr6(a.DurationYears)
+		}
+		out.Additions = append(out.Additions, aj)
+	}
+	for _, m := range t.Management {
+		out.Management = append(out.Management, ManagementJSON{Tag: m.Tag, Label: m.Label, Actions: m.Actions})
 	}
 	return out
 }

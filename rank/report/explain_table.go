@@ -1,7 +1,6 @@
 package report
 
 import (
-	"fmt"
 	"io"
 	"strconv"
 	"strings"
@@ -106,64 +105,6 @@ func leadingIndex(c rank.ComparisonResult) []int {
 		}
 	}
 	return out
-}
-
-// shortLabel names a hypothesis with its direction: "more nitrification".
-func shortLabel(h rank.Hypothesis) string {
-	if len(h.Magnitudes) == 0 {
-		return h.Label
-	}
-	var parts []string
-	for _, m := range h.Magnitudes {
-		parts = append(parts, directed(m))
-	}
-	return strings.Join(parts, " + ")
-}
-
-// Direction words are used when the posterior puts at least this much
-// probability on one side of no change.
-const directionSure = 0.8
-
-// directed puts a direction word before a candidate's name: "more" or
-// "less" when the posterior is clear about it, "changed" when both are
-// possible.
-func directed(m rank.Magnitude) string {
-	name := m.Candidate
-	more, less := "more "+name, "less "+name
-	switch {
-	case strings.HasPrefix(name, "source:"):
-		return "added " + strings.TrimPrefix(name, "source:")
-	case m.Unit == "share of uptake as nitrate":
-		more, less = "more NO3− uptake", "more NH4+ uptake"
-	}
-	switch {
-	case m.ProbMore >= directionSure:
-		return more
-	case m.ProbMore <= 1-directionSure:
-		return less
-	}
-	return "changed " + name
-}
-
-// MagnitudeText prints a hypothesis's magnitudes compactly.
-func MagnitudeText(h rank.Hypothesis) string {
-	var parts []string
-	for _, m := range h.Magnitudes {
-		parts = append(parts, magnitude(m))
-	}
-	return strings.Join(parts, "; ")
-}
-
-func magnitude(m rank.Magnitude) string {
-	switch {
-	case m.Fixed:
-		return fmt.Sprintf("%s kg/ha/yr (declared)", num(m.Best))
-	case m.Unit == "× rate" || strings.HasPrefix(m.Unit, "×"):
-		return fmt.Sprintf("×%s (%s–%s)", sig2(m.Best), sig2(m.Low), sig2(m.High))
-	case m.Unit == "share of uptake as nitrate":
-		return fmt.Sprintf("%.2f NO3− (%.2f–%.2f)", m.Best, m.Low, m.High)
-	}
-	return fmt.Sprintf("%s kg/ha/yr (%s–%s)", sig2(m.Best), sig2(m.Low), sig2(m.High))
 }
 
 // sig2 prints two significant digits (three at or above 100).

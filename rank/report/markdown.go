@@ -135,9 +135,9 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 		fmt.Fprintf(b, "- **#%d %s** (posterior %s)", i+1, mdEscape(shortLabel(h)), fmtProb(h.Posterior))
 		switch {
 		case h.Pair:
-			fmt.Fprintf(b, ": %s", mdEscape(n.sized(h, rateMarkdown)))
+			fmt.Fprintf(b, ": %s", mdEscape(n.sized(h)))
 		case len(h.Magnitudes) == 1:
-			fmt.Fprintf(b, ": %s", mdEscape(sizePart(h.Magnitudes[0], rateMarkdown)))
+			fmt.Fprintf(b, ": %s", mdEscape(magnitudeWords{h.Magnitudes[0]}.sentence(h.Magnitudes[0].Process)))
 		}
 		b.WriteString(".")
 		if h.Mechanism != "" {

@@ -231,23 +231,10 @@ func cutParen(s string) string {
 	return s
 }
 
-// process names a candidate's process for prose: its single hypothesis's
-// label, else its id.
-func (n namer) process(id string) string {
-	if h, ok := n.parts[id]; ok && h.Label != "" {
-		return cutParen(h.Label)
-	}
-	return id
-}
-
 // name is a hypothesis in words with its direction: "more nitrification",
-// "a change in nitrification of uncertain direction", "a new input of
-// manure", "the declared ammonium fertilizer addition".
+// "an undeclared input of manure", "the declared treatment alone".
 func (n namer) name(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
-		if h.ID == rules.None {
-			return "no change in N cycling"
-		}
 		return h.Label
 	}
 	var parts []string
@@ -257,75 +244,29 @@ func (n namer) name(h rank.Hypothesis) string {
 	return strings.Join(parts, " together with ")
 }
 
+// part names one response of a hypothesis with its direction.
 func (n namer) part(m rank.Magnitude) string {
-	switch {
-	case strings.HasPrefix(m.Candidate, rules.SourcePrefix):
-		if m.Fixed {
-			return "the declared " + n.sourceName(m.Candidate) + " addition"
-		}
-		return "a new input of " + n.sourceName(m.Candidate)
-	case m.Unit == shareUnit:
-		switch {
-		case m.ProbMore >= directionSure:
-			return "a shift of plant uptake toward nitrate"
-		case m.ProbMore <= 1-directionSure:
-			return "a shift of plant uptake toward ammonium"
-		}
-		return "a change in the form of plant N uptake"
+	if strings.HasPrefix(m.Candidate, rules.SourcePrefix) {
+		return "an undeclared input of " + n.sourceName(m.Candidate)
 	}
-	p := n.process(m.Candidate)
-	switch {
-	case m.ProbMore >= directionSure:
-		return "more " + p
-	case m.ProbMore <= 1-directionSure:
-		return "less " + p
+	if h, ok := n.parts[m.Candidate]; ok && h.Label != "" {
+		return h.Label
 	}
-	return "a change in " + p + " of uncertain direction"
+	return m.Direction + " " + m.Process
 }
 
-// shareUnit is the unit of the uptake-form candidate (rules/candidates.yaml).
-const shareUnit = "share of uptake as nitrate"
-
 // sized is name with each part's magnitude in parentheses: "more
-// nitrification (about 2.3 times the control rate; 90 % interval 1.4–3.8)".
-func (n namer) sized(h rank.Hypothesis, rateUnit string) string {
+// nitrification (62 % (45–80 %), was 21 %; flux ×2.4)".
+func (n namer) sized(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
 		return n.name(h)
 	}
 	var parts []string
 	for _, m := range h.Magnitudes {
-		parts = append(parts, n.part(m)+" ("+sizePart(m, rateUnit)+")")
+		parts = append(parts, n.part(m)+" ("+magnitudeWords{m}.short()+")")
 	}
 	return strings.Join(parts, " together with ")
 }
-
-// sizePart is a magnitude in words.
-func sizePart(m rank.Magnitude, rateUnit string) string {
-	switch {
-	case m.Fixed:
-		return fmt.Sprintf("%s %s", sig2(m.Best), rateUnit)
-	case m.Unit == shareUnit:
-		return fmt.Sprintf("about %d %% of uptake as nitrate against %d %% in the site model; 90 %% interval %d–%d %%",
-			pct(m.Best), pct(m.Baseline), pct(m.Low), pct(m.High))
-	case strings.HasPrefix(m.Unit, "×"):
-		what := "control rate"
-		if strings.Contains(m.Unit, "flux") {
-			what = "control flux"
-		}
-		switch {
-		case m.ProbMore < directionSure && m.ProbMore > 1-directionSure:
-			return fmt.Sprintf("anywhere from %s to %s times the %s, 90 %% interval", sig2(m.Low), sig2(m.High), what)
-		case spansBaseline(m):
-			return fmt.Sprintf("most probably about %s times the %s, though the 90 %% interval %s–%s includes no change", sig2(m.Best), what, sig2(m.Low), sig2(m.High))
-		}
-		return fmt.Sprintf("about %s times the %s; 90 %% interval %s–%s", sig2(m.Best), what, sig2(m.Low), sig2(m.High))
-	}
-	return fmt.Sprintf("about %s %s; 90 %% interval %s–%s", sig2(m.Best), rateUnit, sig2(m.Low), sig2(m.High))
-}
-
-// spansBaseline says whether a magnitude's 90 % interval includes its
-// no-change value.
-func spansBaseline(m rank.Magnitude) bool { return m.Low < m.Baseline && m.High > m.Baseline }
 
 func pct(share float64) int { return int(math.Round(100 * share)) }
 

@@ -67,22 +67,23 @@ func simulationRows(sim *forward.Simulation) []simRow {
 // Simulation writes a simulate result as a table or JSON.
 func Simulation(w io.Writer, sim *forward.Simulation, opt SimulationOptions) error {
 	var traj []forward.State
+	var params []forward.Params
 	if len(opt.Trajectory) > 0 {
 		var err error
-		if traj, err = sim.Trajectory(opt.Trajectory); err != nil {
+		if traj, params, err = sim.Trajectory(opt.Trajectory); err != nil {
 			return err
 		}
 	}
 	switch opt.Format {
 	case FormatJSON:
-		return simulationJSON(w, sim, opt.Trajectory, traj)
+		return simulationJSON(w, sim, opt.Trajectory, traj, params)
 	case FormatTable, "":
-		return simulationTable(w, sim, opt, traj)
+		return simulationTable(w, sim, opt, traj, params)
 	}
 	return fmt.Errorf("simulate cannot write format %q (table or json)", opt.Format)
 }
 
-func simulationJSON(w io.Writer, sim *forward.Simulation, times []float64, traj []forward.State) error {
+func simulationJSON(w io.Writer, sim *forward.Simulation, times []float64, traj []forward.State, params []forward.Params) error {
 	out := SimulationJSON{
 		Site:     sim.Site.ID,
 		Years:    sim.Years,
@@ -109,7 +110,7 @@ func simulationJSON(w io.Writer, sim *forward.Simulation, times []float64, traj 
 		pt := TrajectoryPoint{Years: times[k], Values: map[string]float64{}}
 		for _, name := range sim.Site.DeltaNames() {
 			o, _ := sim.Site.Observable(name)
-			put(pt.Values, name, o.Value(&x, &sim.Changed))
+			put(pt.Values, name, o.Value(&x, &params[k]))
 		}
 		out.Trajectory = append(out.Trajectory, pt)
 	}
@@ -118,7 +119,7 @@ func simulationJSON(w io.Writer, sim *forward.Simulation, times []float64, traj 
 	return enc.Encode(out)
 }
 
-func simulationTable(w io.Writer, sim *forward.Simulation, opt SimulationOptions, traj []forward.State) error {
+func simulationTable(w io.Writer, sim *forward.Simulation, opt SimulationOptions, traj []forward.State, params []forward.Params) error {
 	ew := &errWriter{w: w}
 	when := "at the new steady state"
 	if sim.Years != nil {
@@ -158,7 +159,7 @@ func simulationTable(w io.Writer, sim *forward.Simulation, opt SimulationOptions
 			row := []string{num(opt.Trajectory[k])}
 			for _, name := range names {
 				o, _ := sim.Site.Observable(name)
-				row = append(row, signed(o.Value(&x, &sim.Changed), 2))
+				row = append(row, signed(o.Value(&x, &params[k]), 2))
 			}
 			rows = append(rows, row)
 		}

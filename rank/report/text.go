@@ -93,7 +93,7 @@ func leadParagraph(c rank.ComparisonResult, n namer, g *glosses, rateUnit string
 			fmtProb(top.Posterior), g.posteriorGloss())
 	} else {
 		fmt.Fprintf(&b, "The best-supported explanation is %s, with a posterior probability of %s%s; it is %s.",
-			n.sized(top, rateUnit), fmtProb(top.Posterior), g.posteriorGloss(), leadWords(top.Posterior, second))
+			n.sized(top), fmtProb(top.Posterior), g.posteriorGloss(), leadWords(top.Posterior, second))
 	}
 	var alts []string
 	for _, h := range named(c, 3)[1:] {
@@ -232,27 +232,13 @@ func capitalize(s string) string {
 func (n namer) short(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
 		if h.ID == rules.None {
-			return "no change"
+			return "no response beyond the treatment"
 		}
 		return h.Label
 	}
 	var parts []string
 	for _, m := range h.Magnitudes {
-		switch {
-		case strings.HasPrefix(m.Candidate, rules.SourcePrefix):
-			parts = append(parts, n.sourceName(m.Candidate))
-		case m.Unit == shareUnit:
-			switch {
-			case m.ProbMore >= directionSure:
-				parts = append(parts, "more nitrate uptake")
-			case m.ProbMore <= 1-directionSure:
-				parts = append(parts, "more ammonium uptake")
-			default:
-				parts = append(parts, "a change in uptake form")
-			}
-		default:
-			parts = append(parts, n.process(m.Candidate))
-		}
+		parts = append(parts, n.part(m))
 	}
 	return strings.Join(parts, " plus ")
 }

@@ -44,9 +44,21 @@ type Comparison struct {
 	Control, Treatment string
 	Years              *float64 // years since the treatment began; nil for a long-standing contrast
 	Management         []string
-	Additions          []Addition
-	Observed           []Observed // sorted by observable name
-	Line               int
+	// Severity of a fire (low, moderate, high); "" when not given.
+	Severity  string
+	Additions []Addition
+	Observed  []Observed // sorted by observable name
+	Line      int
+}
+
+// Declared is what the comparison declares was done to the treatment
+// arm, as the model applies it (DESIGN §4).
+func (c *Comparison) Declared() forward.Treatment {
+	t := forward.Treatment{Management: c.Management, Severity: c.Severity}
+	for _, a := range c.Additions {
+		t.Additions = append(t.Additions, forward.Addition{Source: a.Source, RateKgPerHaYr: a.RateKgPerHaYr, D15N: a.D15N, D18O: a.D18O, DurationYears: a.DurationYears})
+	}
+	return t
 }
 
 // Addition is an input the study declares for the treatment.
@@ -55,6 +67,9 @@ type Addition struct {
 	RateKgPerHaYr float64
 	D15N          *float64 // measured δ15N, ‰ AIR
 	D18O          *float64 // measured δ18O, ‰ VSMOW (nitrate sources)
+	// DurationYears is how long the addition lasted when it stopped before
+	// sampling; 0 when it went on until sampling.
+	DurationYears float64
 }
 
 // Stat is a group's summary of one observable.
@@ -82,7 +97,11 @@ func (s *Study) ContextFor(c *Comparison, kb *knowledge.Base) rules.Context {
 	ctx.Declared = nil
 	for _, a := range c.Additions {
 		if src, ok := kb.Source(a.Source); ok {
-			ctx.AdditionPools = append(ctx.AdditionPools, src.Pool)
+			for _, p := range src.Parts {
+				if !slices.Contains(ctx.AdditionPools, p.Pool) {
+					ctx.AdditionPools = append(ctx.AdditionPools, p.Pool)
+				}
+			}
 		}
 		ctx.Declared = append(ctx.Declared, a.Source)
 	}
@@ -104,6 +123,8 @@ type siteEntry struct {
 	Drainage    string   `yaml:"drainage"`
 	PrecipMM    *float64 `yaml:"mean_annual_precip_mm"`
 	Mycorrhizal string   `yaml:"mycorrhizal_type"`
+	LandUse     string   `yaml:"land_use"`
+	Nearby      []string `yaml:"nearby"`
 }
 
 type comparisonEntry struct {
@@ -112,14 +133,16 @@ type comparisonEntry struct {
 	Treatment  string          `yaml:"treatment"`
 	Years      *float64        `yaml:"years"`
 	Management []string        `yaml:"management"`
+	Severity   string          `yaml:"severity"`
 	Additions  []additionEntry `yaml:"additions"`
 }
 
 type additionEntry struct {
-	Source string   `yaml:"source"`
-	Rate   *float64 `yaml:"rate"`
-	D15N   *float64 `yaml:"d15n"`
-	D18O   *float64 `yaml:"d18o"`
+	Source   string   `yaml:"source"`
+	Rate     *float64 `yaml:"rate"`
+	D15N     *float64 `yaml:"d15n"`
+	D18O     *float64 `yaml:"d18o"`
+	Duration *float64 `yaml:"duration"`
 }
 
 type statEntry struct {
@@ -212,6 +235,19 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 			bad("site.mycorrhizal_type", []any{"site", "mycorrhizal_type"}, "expected one of %s, got %q", strings.Join(rules.MycorrhizalTypes, ", "), se.Mycorrhizal)
 		}
 		ctx.Mycorrhizal = se.Mycorrhizal
+		if se.LandUse != "" && !slices.Contains(knowledge.LandUses, se.LandUse) {
+			bad("site.land_use", []any{"site", "land_use"}, "expected one of %s, got %q", strings.Join(knowledge.LandUses, ", "), se.LandUse)
+		}
+		ctx.LandUse = se.LandUse
+		if ctx.LandUse == "" && st.Site != nil {
+			ctx.LandUse = st.Site.LandUse
+		}
+		for k, n := range se.Nearby {
+			if !slices.Contains(knowledge.NearbyKinds, n) {
+				bad(fmt.Sprintf("site.nearby[%d]", k), []any{"site", "nearby", k}, "expected one of %s, got %q", strings.Join(knowledge.NearbyKinds, ", "), n)
+			}
+		}
+		ctx.Nearby = se.Nearby
 	}
 
 	// Groups from the study file; badGroups had an entry refused, so a
@@ -318,9 +354,21 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 		if c.Years != nil && (!(*c.Years >= 0) || math.IsInf(*c.Years, 0) || *c.Years > 10000) {
 			bad(field("years"), path("years"), "years since the treatment began must be between 0 and 10000, got %g", *c.Years)
 		}
+		tags := kb.ManagementTags()
 		for k, t := range c.Management {
-			if strings.TrimSpace(t) == "" {
-				bad(field(fmt.Sprintf("management[%d]", k)), path("management", k), "empty management tag")
+			if !slices.Contains(tags, t) {
+				bad(field(fmt.Sprintf("management[%d]", k)), path("management", k), "unknown management tag %q (known tags: %s)", t, strings.Join(tags, ", "))
+			}
+		}
+		c.Severity = ce.Severity
+		if ce.Severity != "" {
+			if !slices.Contains(knowledge.Severities, ce.Severity) {
+				bad(field("severity"), path("severity"), "expected one of %s, got %q", strings.Join(knowledge.Severities, ", "), ce.Severity)
+			} else if !slices.ContainsFunc(c.Management, func(t string) bool {
+				m, ok := kb.Management(t)
+				return ok && len(m.Severity) > 0
+			}) {
+				bad(field("severity"), path("severity"), "severity applies to a management that has one (burned); this comparison declares none")
 			}
 		}
 		for k, ae := range ce.Additions {
@@ -331,14 +379,23 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 				bad(af("source"), ap("source"), "unknown source %q (sources: %s)", ae.Source, strings.Join(sourceIDs(kb), ", "))
 				continue
 			}
-			if st.Site != nil && st.Site.PoolIndex(src.Pool) < 0 {
-				bad(af("source"), ap("source"), "source %q enters the %s pool, which the site does not have", ae.Source, src.Pool)
+			for _, part := range src.Parts {
+				if st.Site != nil && st.Site.PoolIndex(part.Pool) < 0 {
+					bad(af("source"), ap("source"), "source %q enters the %s pool, which the site does not have", ae.Source, part.Pool)
+				}
 			}
 			if ae.Rate == nil || !(*ae.Rate > 0) || math.IsInf(*ae.Rate, 0) {
 				bad(af("rate"), path("additions", k), "the addition needs a rate > 0 in kg N/ha/yr")
 				continue
 			}
 			a := Addition{Source: ae.Source, RateKgPerHaYr: *ae.Rate, D15N: ae.D15N, D18O: ae.D18O}
+			if ae.Duration != nil {
+				if !(*ae.Duration > 0 && *ae.Duration <= 10000) {
+					bad(af("duration"), ap("duration"), "an addition's duration is a number of years between 0 and 10000, got %g", *ae.Duration)
+				} else {
+					a.DurationYears = *ae.Duration
+				}
+			}
 			if a.D15N != nil {
 				if msg := deltaProblem("δ15N", *a.D15N, true, opt); msg != "" {
 					bad(af("d15n"), ap("d15n"), "%s", msg)
