@@ -202,20 +202,17 @@ func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int) []P
 	return out
 }
 
-// Flux summaries are computed for the hypotheses a reader sees.
-const (
-	fluxHypotheses = 10
-	fluxSamples    = 32
-)
+// fluxSamples is the number of posterior samples behind a flux summary.
+const fluxSamples = 32
 
-// fluxes fills each shown hypothesis's magnitudes with the flux they imply
+// fluxes fills each hypothesis's magnitudes with the flux they imply
 // at the observation time: over posterior samples, the flux of each knob's
 // processes under the treatment against the same draw's baseline flux.
 func (e *engine) fluxes(cr *ComparisonResult, entries []entry, index uint64) {
 	w := newWorker(e.site)
 	for i := range cr.Hypotheses {
 		h := &cr.Hypotheses[i]
-		if i >= fluxHypotheses || len(h.Magnitudes) == 0 || (h.Posterior <= 0 && i > 0) {
+		if len(h.Magnitudes) == 0 {
 			continue
 		}
 		s := entries[i].s

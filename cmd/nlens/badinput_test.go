@@ -168,7 +168,7 @@ func badCases() []badCase {
 		{"impossible δ even for a tracer study", study("foliage: {mean: 1.0, sd: 0.8", "foliage: {mean: -1200, sd: 0.8"), []string{"check", "--allow-enriched", "study.yaml"},
 			"study.yaml:18: groups.fert.foliage.mean: δ15N -1200 ‰ is below −1000 ‰, which would be a negative isotope ratio"},
 		{"unknown key in the study's site", study("  drainage: well", "  drainge: well"), check,
-			"study.yaml:5: site.drainge: unknown key (keys here: template, file, soil_ph, drainage, mean_annual_precip_mm, mycorrhizal_type)"},
+			"study.yaml:5: site.drainge: unknown key (keys here: template, file, soil_ph, drainage, mean_annual_precip_mm, mycorrhizal_type, land_use, nearby)"},
 		{"unknown site template", study("template: temperate-deciduous-forest", "template: rainforest"), check,
 			`study.yaml:3: site.template: unknown site template "rainforest" (templates: {templates})`},
 		{"unknown source of an addition", study("source: ammonium-fertilizer", "source: guano"), check,

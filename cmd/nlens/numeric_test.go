@@ -286,8 +286,15 @@ groups:
 	}
 }
 
+// nullable are the JSON fields that are null by contract (DESIGN §7): a
+// direction of none, a source or a pair; an interval that reaches no
+// bound; a flux ratio where the baseline flux is zero; a severity not
+// given; a duration of an addition that lasted to sampling.
+var nullable = map[string]bool{"direction": true, "at_bound": true, "flux_ratio": true, "severity": true, "duration_years": true}
+
 // countNulls counts null values in a decoded JSON document, except the
-// magnitude of the "none" hypothesis, which has none (DESIGN §7).
+// magnitude of the "none" hypothesis, which has none, and the fields that
+// are null by contract.
 func countNulls(v any) int {
 	switch v := v.(type) {
 	case nil:
@@ -295,7 +302,7 @@ func countNulls(v any) int {
 	case map[string]any:
 		n := 0
 		for k, x := range v {
-			if k == "magnitude" && x == nil && v["id"] == "none" {
+			if k == "magnitude" && x == nil && v["id"] == "none" || nullable[k] && x == nil {
 				continue
 			}
 			n += countNulls(x)

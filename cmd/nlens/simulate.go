@@ -214,7 +214,7 @@ func parseChange(site *forward.Site, e *env, set *rules.Set, opt simulateOptions
 			return nil, c, "", badf("--change %q: the factor must be 0 or between %g and %g", s, 1/maxChangeFactor, maxChangeFactor)
 		}
 		response.Knobs = append(response.Knobs, forward.Factor(id, f))
-		words = append(words, fmt.Sprintf("%s rate constant ×%s", id, strconv.FormatFloat(f, 'g', 4, 64)))
+		words = append(words, fmt.Sprintf("%s ×%s", id, strconv.FormatFloat(f, 'g', 4, 64)))
 	}
 	if len(response.Knobs)+len(response.Inputs) > 0 {
 		c.Mods = append(c.Mods, response)

@@ -79,8 +79,11 @@ func obs(name string, ctl, trt float64, sdC, sdT float64, n int, logRatio bool) 
 		Control: study.Stat{Mean: ctl, SD: sdC, N: n}, Treatment: study.Stat{Mean: trt, SD: sdT, N: n}, LogRatio: logRatio}
 }
 
-func factor(cand string, best, lo, hi, probMore float64) rank.Magnitude {
-	return rank.Magnitude{Candidate: cand, Best: best, Low: lo, High: hi, Unit: "× rate", Baseline: 1, ProbMore: probMore}
+// share is a share magnitude of a more-/less- response: its median, 90 %
+// interval and baseline, with the flux ratio it implies.
+func share(cand, dir, process, of string, best, lo, hi, base, flux float64) rank.Magnitude {
+	return rank.Magnitude{Candidate: cand, Kind: "share", Direction: dir, Process: process, Of: of, Best: best, Low: lo, High: hi, Unit: "share", Baseline: base,
+		PriorLow: 0.001, PriorHigh: 0.95, Flux: &rank.FluxImplied{Baseline: 10, Median: 10 * flux, Low: 5 * flux, High: 15 * flux, Ratio: flux, RatioLow: flux / 2, RatioHi: 1.5 * flux, HasRatio: true}}
 }
 
 func method(draws int) rank.Method {
@@ -114,37 +117,37 @@ func approach(ts []float64, level, tau float64) []float64 {
 // temperate-grassland template's), which must be cited as 2015a and 2015b.
 func transientResult() *rank.Result {
 	years := evenYears(13, 0.5)
-	nitr := rank.Hypothesis{ID: "nitrification", Label: "nitrification",
+	nitr := rank.Hypothesis{ID: "more-nitrification", Label: "more nitrification", Direction: "more",
 		Mechanism: "nitrifiers discriminate against 15N, so faster nitrification enriches the NH4+ left behind and makes depleted nitrate that can be lost",
 		Refs:      []string{"hogberg1997", "mariotti1981", "craine2015"}, Tests: []string{"soil-ammonium-d15n"},
 		Posterior: 0.58, PriorProb: 0.14, LogEvidence: -3.1,
 		Adjustments: []rules.Adjustment{{Rule: "disturbance-nitrification", Factor: 2, Reason: "removing plant uptake releases NH4+ to nitrifiers", Refs: []string{"pardo2002"}, Status: "confirmed"}},
-		Magnitudes:  []rank.Magnitude{factor("nitrification", 2.6, 1.5, 4.4, 0.97)},
+		Magnitudes:  []rank.Magnitude{share("more-nitrification", "more", "nitrification", "the NH4+ outflow", 0.62, 0.45, 0.8, 0.21, 2.4)},
 		Predicted:   map[string]rank.Moments{"foliage": mo(1.3, 0.45), "soil": mo(0.02, 0.04), "soil-nitrate": mo(5.9, 1.4)},
 		Fit:         rank.Fit{Chi2: 1.2, DOF: 3, P: 0.75}, MaxSignal: 6}
-	denit := rank.Hypothesis{ID: "denitrification", Label: "denitrification",
+	denit := rank.Hypothesis{ID: "more-denitrification", Label: "more denitrification", Direction: "more",
 		Mechanism: "denitrifiers remove 15N-depleted N as gas, enriching the nitrate left behind",
 		Refs:      []string{"houlton2006", "granger2008"}, Posterior: 0.04, PriorProb: 0.07,
-		Magnitudes: []rank.Magnitude{factor("denitrification", 6.1, 2.2, 9.6, 0.99)},
+		Magnitudes: []rank.Magnitude{share("more-denitrification", "more", "denitrification", "the NO3− outflow", 0.3, 0.12, 0.55, 0.05, 6.1)},
 		Predicted:  map[string]rank.Moments{"foliage": mo(1.0, 0.4), "soil": mo(0.05, 0.03), "soil-nitrate": mo(3.4, 1.2)},
 		Fit:        rank.Fit{Chi2: 3.9, DOF: 3, P: 0.27}, MaxSignal: 4}
-	pair := rank.Hypothesis{ID: "nitrification+denitrification", Label: "nitrification + denitrification",
+	pair := rank.Hypothesis{ID: "more-nitrification+more-denitrification", Label: "more nitrification + more denitrification",
 		Mechanism: nitr.Mechanism + "; " + denit.Mechanism, Refs: append(append([]string{}, nitr.Refs...), denit.Refs...),
 		Posterior: 0.17, PriorProb: 0.02, Pair: true,
-		Magnitudes: []rank.Magnitude{factor("nitrification", 2.1, 1.2, 3.9, 0.93), factor("denitrification", 1.3, 0.3, 7.9, 0.55)},
+		Magnitudes: []rank.Magnitude{share("more-nitrification", "more", "nitrification", "the NH4+ outflow", 0.5, 0.3, 0.75, 0.21, 2), share("more-denitrification", "more", "denitrification", "the NO3− outflow", 0.12, 0.05, 0.4, 0.05, 2.1)},
 		Predicted:  map[string]rank.Moments{"foliage": mo(1.5, 0.5), "soil": mo(0.03, 0.05), "soil-nitrate": mo(6.3, 1.5)},
 		Fit:        rank.Fit{Chi2: 0.8, DOF: 3, P: 0.85}, MaxSignal: 6}
-	waste := rank.Hypothesis{ID: "source:wastewater", Label: "new input of septic or sewage effluent nitrate",
+	waste := rank.Hypothesis{ID: "source:wastewater", Label: "undeclared septic or sewage effluent nitrate",
 		Mechanism: "septic or sewage effluent nitrate enters with its own δ15N and pulls the pools it feeds toward it",
 		Refs:      []string{"kendall1998", "bateman2007"}, Posterior: 0.11, PriorProb: 0.01,
-		Magnitudes: []rank.Magnitude{{Candidate: "source:wastewater", Best: 12, Low: 5.1, High: 31, Unit: "kg N/ha/yr", ProbMore: 1}},
+		Magnitudes: []rank.Magnitude{{Candidate: "source:wastewater", Kind: "input", Process: "septic or sewage effluent nitrate", Best: 12, Low: 5.1, High: 31, Unit: "kg N/ha/yr", PriorLow: 1, PriorHigh: 100}},
 		Predicted:  map[string]rank.Moments{"foliage": mo(1.1, 0.4), "soil": mo(0.02, 0.01), "soil-nitrate": mo(6.6, 1.5)},
 		Fit:        rank.Fit{Chi2: 0.9, DOF: 3, P: 0.82}, MaxSignal: 5}
-	none := rank.Hypothesis{ID: "none", Label: "no change in N cycling", Mechanism: "the treatments differ by sampling noise only",
+	none := rank.Hypothesis{ID: "none", Label: "the declared treatment alone", Mechanism: "the treatments differ by sampling noise only",
 		Posterior: 0.06, PriorProb: 0.3, Predicted: map[string]rank.Moments{"foliage": mo(0, 0), "soil": mo(0, 0), "soil-nitrate": mo(0, 0)},
 		Fit: rank.Fit{Chi2: 26, DOF: 3, P: 0.00001}}
-	mine := rank.Hypothesis{ID: "mineralization", Label: "mineralization", Refs: []string{"philben2018"}, Posterior: 0, PriorProb: 0.07,
-		Magnitudes: []rank.Magnitude{factor("mineralization", 1.1, 0.5, 2.0, 0.6)}, Indistinguishable: true,
+	mine := rank.Hypothesis{ID: "more-mineralization", Label: "more mineralization", Direction: "more", Refs: []string{"philben2018"}, Posterior: 0, PriorProb: 0.07,
+		Magnitudes: []rank.Magnitude{share("more-mineralization", "more", "mineralization", "the outflow of soil organic N", 0.6, 0.52, 0.8, 0.5, 1.3)}, Indistinguishable: true,
 		Predicted: map[string]rank.Moments{"foliage": mo(0.1, 0.1), "soil": mo(0, 0.01), "soil-nitrate": mo(0.2, 0.3)},
 		Fit:       rank.Fit{Chi2: 24, DOF: 3, P: 0.00003}, MaxSignal: 0.4}
 	leading := []string{"nitrification", "nitrification+denitrification", "source:wastewater", "none"}
@@ -196,19 +199,19 @@ func logYears(n int, horizon float64) []float64 {
 // fits, and one where "none" leads.
 func multiResult() *rank.Result {
 	ly := logYears(21, 2000)
-	declared := rank.Magnitude{Candidate: "source:ammonium-fertilizer", Best: 50, Low: 50, High: 50, Unit: "kg N/ha/yr", Fixed: true, ProbMore: 1}
-	share := rank.Magnitude{Candidate: "uptake-form", Best: 0.1, Low: 0.03, High: 0.25, Unit: "share of uptake as nitrate", Baseline: 0.48, ProbMore: 0.01}
-	uptake := rank.Hypothesis{ID: "uptake-form", Label: "form of plant N uptake (NH4+ vs NO3−)",
-		Mechanism: "soil NH4+ and NO3− differ in δ15N, so a plant that shifts between them changes its δ15N", Refs: []string{"hogberg1997", "pritchard2005"},
-		Posterior: 0.2, PriorProb: 0.1, Magnitudes: []rank.Magnitude{share},
+	dep := rank.Magnitude{Candidate: "source:deposition", Kind: "input", Process: "atmospheric N deposition", Best: 9, Low: 3, High: 25, Unit: "kg N/ha/yr", PriorLow: 1, PriorHigh: 40}
+	nshare := rank.Magnitude{Candidate: "less-nitrate-uptake", Kind: "nitrate-share", Direction: "less", Process: "nitrate in plant uptake", Of: "plant uptake", Best: 0.1, Low: 0.03, High: 0.25, Unit: "share", Baseline: 0.48, PriorLow: 0.01, PriorHigh: 0.48, AtBound: "low"}
+	uptake := rank.Hypothesis{ID: "less-nitrate-uptake", Label: "less nitrate in plant uptake", Direction: "less",
+		Mechanism: "a plant taking more NH4+ and less NO3− moves toward the heavier NH4+ without any change in losses", Refs: []string{"hogberg1997", "pritchard2005"},
+		Posterior: 0.2, PriorProb: 0.1, Magnitudes: []rank.Magnitude{nshare},
 		Predicted: map[string]rank.Moments{"foliage": mo(1.6, 0.5), "pool:nitrate": mo(0.9, 0.2)}, Fit: rank.Fit{Chi2: 1.5, DOF: 2, P: 0.47}}
-	fert := rank.Hypothesis{ID: "source:ammonium-fertilizer", Label: "new input of ammonium fertilizer (ammonium sulfate)",
-		Mechanism: "ammonium fertilizer enters with its own δ15N and pulls the pools it feeds toward it", Refs: []string{"bateman2007"},
-		Posterior: 0.15, PriorProb: 0.1, Magnitudes: []rank.Magnitude{declared},
+	fert := rank.Hypothesis{ID: "source:deposition", Label: "undeclared atmospheric N deposition (wet and dry, NH4+ and NO3−)",
+		Mechanism: "atmospheric N deposition that nobody reported enters with its own δ15N and pulls the pools it feeds toward it", Refs: []string{"moore1977"},
+		Posterior: 0.15, PriorProb: 0.1, Magnitudes: []rank.Magnitude{dep},
 		Predicted: map[string]rank.Moments{"foliage": mo(-0.3, 0.3), "pool:nitrate": mo(0.6, 0.2)}, Fit: rank.Fit{Chi2: 6.5, DOF: 2, P: 0.04}}
-	pair := rank.Hypothesis{ID: "source:ammonium-fertilizer+uptake-form", Label: uptake.Label + " + " + fert.Label, Pair: true,
-		Mechanism: uptake.Mechanism + "; " + fert.Mechanism, Refs: []string{"hogberg1997", "pritchard2005", "bateman2007"},
-		Posterior: 0.45, PriorProb: 0.03, Magnitudes: []rank.Magnitude{share, declared},
+	pair := rank.Hypothesis{ID: "less-nitrate-uptake+source:deposition", Label: uptake.Label + " + " + fert.Label, Pair: true,
+		Mechanism: uptake.Mechanism + "; " + fert.Mechanism, Refs: []string{"hogberg1997", "pritchard2005", "moore1977"},
+		Posterior: 0.45, PriorProb: 0.03, Magnitudes: []rank.Magnitude{nshare, dep},
 		Predicted: map[string]rank.Moments{"foliage": mo(1.9, 0.5), "pool:nitrate": mo(1.1, 0.2)}, Fit: rank.Fit{Chi2: 0.4, DOF: 2, P: 0.82}}
 	none1 := rank.Hypothesis{ID: "none", Label: "no change in N cycling", Posterior: 0.2, PriorProb: 0.3,
 		Predicted: map[string]rank.Moments{"foliage": mo(0, 0), "pool:nitrate": mo(0, 0)}, Fit: rank.Fit{Chi2: 30, DOF: 2, P: 0.0000003}}
@@ -230,8 +233,10 @@ func multiResult() *rank.Result {
 		ReplicatesAssumed: 5,
 	}
 
-	vol := rank.Hypothesis{ID: "volatilization", Label: "NH3 volatilization", Mechanism: "ammonia lost to the air is strongly depleted",
-		Refs: []string{"nh3volatilisation2018"}, Posterior: 0.7, PriorProb: 0.1, Magnitudes: []rank.Magnitude{factor("volatilization", 9.8, 6, 10, 1)},
+	volM := share("more-volatilization", "more", "NH3 volatilization", "the NH4+ outflow", 0.45, 0.3, 0.49, 0.001, 400)
+	volM.PriorHigh, volM.AtBound = 0.5, "high"
+	vol := rank.Hypothesis{ID: "more-volatilization", Label: "more NH3 volatilization", Direction: "more", Mechanism: "ammonia lost to the air is strongly depleted",
+		Refs: []string{"nh3volatilisation2018"}, Posterior: 0.7, PriorProb: 0.1, Magnitudes: []rank.Magnitude{volM},
 		Predicted: map[string]rank.Moments{"foliage": mo(2.0, 0.6)}, Fit: rank.Fit{Chi2: 14, DOF: 1, P: 0.0002}}
 	noneNF := rank.Hypothesis{ID: "none", Label: "no change in N cycling", Posterior: 0.3, PriorProb: 0.3,
 		Predicted: map[string]rank.Moments{"foliage": mo(0, 0)}, Fit: rank.Fit{Chi2: 80, DOF: 1, P: 1e-19}}
@@ -244,9 +249,11 @@ func multiResult() *rank.Result {
 
 	noneLead := rank.Hypothesis{ID: "none", Label: "no change in N cycling", Posterior: 0.64, PriorProb: 0.3,
 		Predicted: map[string]rank.Moments{"soil": mo(0, 0)}, Fit: rank.Fit{Chi2: 0.3, DOF: 1, P: 0.58}}
-	myc := rank.Hypothesis{ID: "mycorrhizal-route", Label: "N supply through mycorrhizal fungi",
+	mycM := share("less-mycorrhizal-route", "less", "N supply through mycorrhizal fungi", "the plant's N supply", 0.2, 0.05, 0.38, 0.4, 0.5)
+	mycM.PriorLow, mycM.PriorHigh, mycM.AtBound = 0.02, 0.4, "both"
+	myc := rank.Hypothesis{ID: "less-mycorrhizal-route", Label: "less N supply through mycorrhizal fungi", Direction: "less",
 		Mechanism: "mycorrhizal fungi keep 15N-enriched N and pass depleted N to their hosts", Refs: []string{"hobbie2012"},
-		Posterior: 0.12, PriorProb: 0.1, Magnitudes: []rank.Magnitude{{Candidate: "mycorrhizal-route", Best: 0.4, Low: 0.12, High: 0.9, Unit: "× flux through fungi", Baseline: 1, ProbMore: 0.05}},
+		Posterior: 0.12, PriorProb: 0.1, Magnitudes: []rank.Magnitude{mycM},
 		Predicted: map[string]rank.Moments{"soil": mo(0.3, 0.2)}, Fit: rank.Fit{Chi2: 0.1, DOF: 1, P: 0.75}}
 	quiet := rank.ComparisonResult{Name: "limed vs control", Years: f64(2),
 		Observed:   []study.Observed{obs("soil", 4.0, 4.2, 0.5, 0.5, 4, false)},

@@ -99,6 +99,25 @@ func (m magnitudeWords) sentence(process string) string {
 	return s
 }
 
+// prose is the form for running text, after the hypothesis's name: "about
+// 62 % of the NH4+ outflow (90 % interval 45–80 %) instead of 21 %, the
+// flux about 2.4 times its baseline".
+func (m magnitudeWords) prose() string {
+	var s string
+	switch {
+	case m.Kind == "input" && m.Baseline > 0:
+		s = fmt.Sprintf("about %s (90 %% interval %s) instead of %s", m.value(m.Best), m.interval(), m.value(m.Baseline))
+	case m.Kind == "input":
+		s = fmt.Sprintf("about %s (90 %% interval %s)", m.value(m.Best), m.interval())
+	default:
+		s = fmt.Sprintf("about %s of %s (90 %% interval %s) instead of %s", m.value(m.Best), m.Of, m.interval(), m.value(m.Baseline))
+	}
+	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
+		s += fmt.Sprintf(", the flux about %s times its baseline", sig2(f.Ratio))
+	}
+	return s
+}
+
 // MagnitudeText prints a hypothesis's magnitudes compactly, in the order of
 // its parts.
 func MagnitudeText(h rank.Hypothesis) string {

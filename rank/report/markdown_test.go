@@ -109,11 +109,11 @@ func TestDiscussionDraft(t *testing.T) {
 		want []string
 	}{
 		{"transient", transientResult(), []string{
-			"this explanation carries a posterior probability of 0.58", "2.6-fold increase in nitrification", "(90 % credible interval 1.5–4.4)",
+			"this explanation carries a posterior probability of 0.58", "more nitrification taking 62 % (90 % interval 45–80 %) of the NH4+ outflow, up from 21 %",
 			"Alternative interpretations cannot be excluded", "Measuring δ15N of soil NH4+ would probably",
 			"nitrifiers discriminate against 15N"}},
 		{"multi", multiResult(), []string{
-			"the declared ammonium fertilizer addition", "not reproduced by any of the candidate changes",
+			"an undeclared input of atmospheric N deposition", "not reproduced by any of the candidate changes",
 			"the most probable interpretation is that N cycling did not change",
 			"No change in N cycling retains a posterior probability of 0.20 but reproduces the observations poorly"}},
 	} {

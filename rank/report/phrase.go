@@ -255,17 +255,18 @@ func (n namer) part(m rank.Magnitude) string {
 	return m.Direction + " " + m.Process
 }
 
-// sized is name with each part's magnitude in parentheses: "more
-// nitrification (62 % (45–80 %), was 21 %; flux ×2.4)".
+// sized is name with each part's magnitude: "more nitrification, about
+// 62 % of the NH4+ outflow (90 % interval 45–80 %) instead of 21 %, the
+// flux about 2.4 times its baseline".
 func (n namer) sized(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
 		return n.name(h)
 	}
 	var parts []string
 	for _, m := range h.Magnitudes {
-		parts = append(parts, n.part(m)+" ("+magnitudeWords{m}.short()+")")
+		parts = append(parts, n.part(m)+", "+magnitudeWords{m}.prose())
 	}
-	return strings.Join(parts, " together with ")
+	return strings.Join(parts, "; together with ")
 }
 
 func pct(share float64) int { return int(math.Round(100 * share)) }

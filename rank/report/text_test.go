@@ -55,9 +55,10 @@ func TestTextReadsLikeAnEmail(t *testing.T) {
 	}
 	flat := strings.Join(strings.Fields(got), " ")
 	for _, want := range []string{
-		"soil-nitrate δ15N was 6.1 ‰ higher",              // the fixture's observed shift, −6.0 − (−12.1)
-		"more nitrification (about 2.6 times the control", // the leader and its size (fixture magnitude 2.6)
-		"posterior probability of 0.58 (how strongly",     // posterior with its gloss
+		"soil-nitrate δ15N was 6.1 ‰ higher",                                                         // the fixture's observed shift, −6.0 − (−12.1)
+		"more nitrification, about 62 % of the NH4+ outflow (90 % interval 45–80 %) instead of 21 %", // the leader and its size (fixture magnitude)
+		"the flux about 2.4 times its baseline",                                                      // the fixture's flux ratio
+		"posterior probability of 0.58 (how strongly",                                                // posterior with its gloss
 		"What the data cannot yet tell apart",
 		"What I would measure next: δ15N of soil NH4+", // the fixture's top measurement
 		"expected information gain;",                   // bits glossed
@@ -83,7 +84,7 @@ func TestTextFollowsTheResult(t *testing.T) {
 	for _, want := range []string{
 		"(a long-standing contrast)",                                       // comparison 1 has no years
 		"the nitrate pool was about 3 times as large",                      // ln(4.5/1.5) = ln 3
-		"the declared ammonium fertilizer addition",                        // fixed source in a pair
+		"an undeclared input of atmospheric N deposition",                  // a source in a pair
 		"None of the explanations nlens considers reproduces this pattern", // comparison 2 has NoFit
 		"N cycling did not change",                                         // comparison 3: none leads
 	} {

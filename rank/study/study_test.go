@@ -131,7 +131,7 @@ func TestBadStudies(t *testing.T) {
 		{"enriched", strings.Replace(goodStudy, "foliage: {mean: 1.0, sd: 0.8", "foliage: {mean: 140, sd: 0.8", 1), nil, Options{},
 			"study.yaml:22: groups.fert.foliage.mean: δ15N 140 ‰ is beyond natural abundance (|δ| > 100 ‰); use --allow-enriched for a tracer study"},
 		{"unknown key", strings.Replace(goodStudy, "  drainage: well", "  drainge: well", 1), nil, Options{},
-			`study.yaml:5: site.drainge: unknown key (keys here: template, file, soil_ph, drainage, mean_annual_precip_mm, mycorrhizal_type)`},
+			`study.yaml:5: site.drainge: unknown key (keys here: template, file, soil_ph, drainage, mean_annual_precip_mm, mycorrhizal_type, land_use, nearby)`},
 		{"bad drainage", strings.Replace(goodStudy, "drainage: well", "drainage: swampy", 1), nil, Options{},
 			`study.yaml:5: site.drainage: expected one of well, moderate, poor, got "swampy"`},
 		{"unknown template", strings.Replace(goodStudy, "template: temperate-deciduous-forest", "template: rainforest", 1), nil, Options{},
