@@ -67,8 +67,7 @@ func BenchmarkExplain48(b *testing.B) {
 // (13 magnitude nodes × 48 draws of forward runs, splines, likelihood).
 func BenchmarkEvidenceOneCandidate(b *testing.B) {
 	kb, set, st := benchSetup(b)
-	cmp := &st.Comparisons[0]
-	e, err := newEngine(st, cmp, 0, kb, set, Options{Seed: 1, Draws: DefaultDraws, ModelError: DefaultModelError})
+	e, err := newEngine(st, unit{idx: []int{0}}, kb, set, Options{Seed: 1, Draws: DefaultDraws, ModelError: DefaultModelError})
 	if err != nil {
 		b.Fatal(err)
 	}

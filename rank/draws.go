@@ -16,7 +16,9 @@ import (
 type draw struct {
 	params   forward.Params
 	srcDelta map[string][2]float64
-	forcing  forward.Change
+	// forcing is the treatment of each part, with the uncertain sizes of
+	// this draw shared between parts.
+	forcing  []forward.Change
 	severity string
 }
 
@@ -42,7 +44,7 @@ func sampleWithin(dist string, lo, hi, mode float64, rng rand.Source) float64 {
 // uptake reductions and their recovery time, unmeasured δ of additions)
 // from its triangular range, and a fire's severity, when the
 // study does not give it, uniformly from low, moderate and high.
-func makeDraws(site *forward.Site, kb *knowledge.Base, tr forward.Treatment, n int, rng rand.Source) ([]draw, error) {
+func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, n int, rng rand.Source) ([]draw, error) {
 	norm := distuv.Normal{Mu: 0, Sigma: 1, Src: rng}
 	out := make([]draw, n)
 	for d := range out {
@@ -104,22 +106,32 @@ func makeDraws(site *forward.Site, kb *knowledge.Base, tr forward.Treatment, n i
 				part(s, pt)
 			}
 		}
+		// Sizes are drawn once per key, so the parts of a series share the
+		// same removal shares, recovery time and δ of an addition.
+		sizes := map[string]float64{}
 		size := forward.Nominal
 		if d > 0 {
-			size = func(_ string, sz knowledge.Size) float64 {
-				return sampleWithin(knowledge.DistTriangular, sz.Range[0], sz.Range[1], sz.Typical, rng)
+			size = func(key string, sz knowledge.Size) float64 {
+				v, ok := sizes[key]
+				if !ok {
+					v = sampleWithin(knowledge.DistTriangular, sz.Range[0], sz.Range[1], sz.Typical, rng)
+					sizes[key] = v
+				}
+				return v
 			}
+			dr.severity = knowledge.Severities[rand.New(rng).IntN(len(knowledge.Severities))]
 		}
-		t := tr
-		if t.Severity == "" && d > 0 {
-			t.Severity = knowledge.Severities[rand.New(rng).IntN(len(knowledge.Severities))]
+		for _, tr := range trs {
+			t := tr
+			if t.Severity == "" && d > 0 {
+				t.Severity = dr.severity
+			}
+			c, err := forward.TreatmentChange(site, kb, t, size)
+			if err != nil {
+				return nil, err
+			}
+			dr.forcing = append(dr.forcing, c)
 		}
-		dr.severity = t.Severity
-		c, err := forward.TreatmentChange(site, kb, t, size)
-		if err != nil {
-			return nil, err
-		}
-		dr.forcing = c
 		dr.params = p
 		out[d] = dr
 	}

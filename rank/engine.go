@@ -16,6 +16,16 @@ import (
 // to match the 0.5 ‰ default's share of a typical δ shift).
 const modelErrorLog = 0.25
 
+// kindDuration is the pseudo-knob of a pulse: its magnitude is the pulse's
+// duration in years, and it ends the response of the knobs before it.
+const kindDuration = "duration"
+
+// Pulse durations: log-uniform from half a year to twenty years (DESIGN §4).
+const (
+	pulseMinYears = 0.5
+	pulseMaxYears = 20
+)
+
 // knob is a candidate response compiled against a site.
 type knob struct {
 	cand *rules.Candidate
@@ -53,22 +63,37 @@ type worker struct {
 
 func newWorker(site *forward.Site) *worker { return &worker{model: forward.NewModel(site)} }
 
-// engine scores the candidate responses of one comparison.
+// part is one comparison of a unit: a single comparison, or one member of
+// a series explained jointly with the others (DESIGN §6).
+type part struct {
+	cmp *study.Comparison
+	tr  forward.Treatment
+	// scale is the dose level relative to the series' largest (1 outside a
+	// dose series): the share change of a response scales with it.
+	scale float64
+	// lo and hi delimit its observables in the engine's lists.
+	lo, hi int
+}
+
+// engine scores the candidate responses of one unit (a comparison or a
+// series).
 type engine struct {
 	site  *forward.Site
 	kb    *knowledge.Base
 	set   *rules.Set
-	cmp   *study.Comparison
-	tr    forward.Treatment
+	parts []part
 	opt   Options
 	ctx   rules.Context
 	draws []draw
 	logw  []float64 // ln of the normalised draw weights
 	needO bool
-	// treated is set when the comparison's treatment acts on the model.
+	// treated is set when a part's treatment acts on the model.
 	treated bool
-	// observed observables, their shifts and variances.
+	// stream seeds this unit's random streams.
+	stream uint64
+	// observed observables of every part, their shifts and variances.
 	obs      []forward.Observable
+	observed []study.Observed
 	shift    []float64
 	variance []float64
 	// per draw: baseline state and baseline value of each observed observable
@@ -238,26 +263,31 @@ func (k *knob) shareInDraw(theta float64, d int) float64 {
 	return logistic(logit(theta) - logit(b0) + logit(bd))
 }
 
-// changeFor writes into w.change the treatment of draw d with the knobs at
-// magnitudes theta added as a sustained response.
-func (e *engine) changeFor(w *worker, d int, knobs []*knob, theta []float64) {
-	f := &e.draws[d].forcing
+// changeFor writes into w.change the treatment of part pi in draw d with
+// the knobs at magnitudes theta added as a response: sustained, or a pulse
+// ending at the duration knob's value; scaled by the part's dose level.
+func (e *engine) changeFor(w *worker, d, pi int, knobs []*knob, theta []float64) {
+	f := &e.draws[d].forcing[pi]
+	scale := e.parts[pi].scale
 	w.mods = append(w.mods[:0], f.Mods...)
 	if len(knobs) > 0 {
 		mod := forward.Mod{Start: 0, End: math.Inf(1)}
 		for i, k := range knobs {
-			switch {
-			case k.kind == rules.KnobSource:
+			switch k.kind {
+			case kindDuration:
+				mod.End = theta[i]
+			case rules.KnobSource:
 				for _, p := range k.parts {
 					ds := e.draws[d].srcDelta[k.source+"/"+p.name]
-					mod.Inputs = append(mod.Inputs, forward.InputParam{To: p.pool, RateKgPerHaYr: theta[i] * p.share, D15N: ds[0], D18O: ds[1]})
+					mod.Inputs = append(mod.Inputs, forward.InputParam{To: p.pool, RateKgPerHaYr: scale * theta[i] * p.share, D15N: ds[0], D18O: ds[1]})
 				}
 			default:
 				fk := *k.fk
-				fk.Value = theta[i]
+				v, b := theta[i], k.baseline
 				if k.baseD != nil {
-					fk.Value = k.shareInDraw(theta[i], d)
+					v, b = k.shareInDraw(theta[i], d), k.baseD[d]
 				}
+				fk.Value = b + scale*(v-b)
 				mod.Knobs = append(mod.Knobs, fk)
 			}
 		}
@@ -266,52 +296,72 @@ func (e *engine) changeFor(w *worker, d int, knobs []*knob, theta []float64) {
 	w.change = forward.Change{Moves: f.Moves, Mods: w.mods}
 }
 
-// run computes the state at the comparison's horizon for knobs at theta
-// under draw d into w.x; the parameters then in force are w.run.Final().
-func (e *engine) run(w *worker, d int, knobs []*knob, theta []float64, withO bool) error {
-	e.changeFor(w, d, knobs, theta)
+// run computes the state of part pi at its horizon for knobs at theta under
+// draw d into w.x; the parameters then in force are w.run.Final().
+func (e *engine) run(w *worker, d, pi int, knobs []*knob, theta []float64, withO bool) error {
+	e.changeFor(w, d, pi, knobs, theta)
 	p := &e.draws[d].params
-	if e.cmp.Years != nil {
-		return w.run.Advance(w.model, p, &w.change, &e.base[d], *e.cmp.Years, withO, &w.x)
+	if y := e.parts[pi].cmp.Years; y != nil {
+		return w.run.Advance(w.model, p, &w.change, &e.base[d], *y, withO, &w.x)
 	}
 	return w.run.Steady(w.model, p, &w.change, withO, &w.x)
 }
 
-// predict writes the predicted shifts of the observed observables; a state
-// the model cannot produce gives NaN.
+// predict writes the predicted shifts of the observed observables of every
+// part; a state the model cannot produce gives NaN.
 func (e *engine) predict(w *worker, d int, knobs []*knob, theta []float64, out []float64) {
-	if err := e.run(w, d, knobs, theta, e.needO); err != nil {
-		for i := range out {
-			out[i] = math.NaN()
+	for pi, pt := range e.parts {
+		if err := e.run(w, d, pi, knobs, theta, e.needO); err != nil {
+			for i := pt.lo; i < pt.hi; i++ {
+				out[i] = math.NaN()
+			}
+			continue
 		}
-		return
+		p := w.run.Final()
+		for i := pt.lo; i < pt.hi; i++ {
+			out[i] = e.obs[i].Shift(e.baseVals[d][i], e.obs[i].Value(&w.x, p))
+		}
 	}
-	p := w.run.Final()
-	for i, o := range e.obs {
-		out[i] = o.Shift(e.baseVals[d][i], o.Value(&w.x, p))
+}
+
+// durationKnob is the pulse duration of a response.
+func durationKnob(c *rules.Candidate, pair bool) *knob {
+	fine := fine1
+	if pair {
+		fine = fine2
 	}
+	return &knob{cand: c, kind: kindDuration, ax: newAxis(rules.PriorLogUniform, pulseMinYears, pulseMaxYears, nodesFor(rules.PriorLogUniform, pair), fine)}
 }
 
 // setup makes the draws, baselines and weights.
 func (e *engine) setup(w *worker, seedStream uint64) error {
 	e.needO = false
-	for _, o := range e.cmp.Observed {
-		bound, err := e.site.Observable(o.Observable)
-		if err != nil {
-			return err
+	var trs []forward.Treatment
+	for pi := range e.parts {
+		pt := &e.parts[pi]
+		pt.lo = len(e.obs)
+		for _, o := range pt.cmp.Observed {
+			bound, err := e.site.Observable(o.Observable)
+			if err != nil {
+				return err
+			}
+			e.obs = append(e.obs, bound)
+			e.observed = append(e.observed, o)
+			e.shift = append(e.shift, o.Shift)
+			sm := e.opt.ModelError
+			if o.LogRatio {
+				sm = modelErrorLog
+			}
+			e.variance = append(e.variance, o.SE*o.SE+sm*sm)
+			e.needO = e.needO || bound.Kind == forward.KindDelta18
 		}
-		e.obs = append(e.obs, bound)
-		e.shift = append(e.shift, o.Shift)
-		sm := e.opt.ModelError
-		if o.LogRatio {
-			sm = modelErrorLog
-		}
-		e.variance = append(e.variance, o.SE*o.SE+sm*sm)
-		e.needO = e.needO || bound.Kind == forward.KindDelta18
+		pt.hi = len(e.obs)
+		trs = append(trs, pt.tr)
 	}
+	e.stream = seedStream
 	rng := newRand(e.opt.Seed, seedStream, 0)
 	var err error
-	e.draws, err = makeDraws(e.site, e.kb, e.tr, e.opt.Draws, rng)
+	e.draws, err = makeDraws(e.site, e.kb, trs, e.opt.Draws, rng)
 	if err != nil {
 		return err
 	}
@@ -337,7 +387,10 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 		name, diff := "", 0.0
 		for i, o := range e.obs {
 			vals[i] = o.Value(&e.base[d], p)
-			c := e.cmp.Observed[i].Control
+			if e.observed[i].NoLevels() {
+				continue
+			}
+			c := e.observed[i].Control
 			var z float64
 			if o.LogRatio() {
 				z = math.Log(c.Mean/vals[i]) / math.Hypot(c.SE()/c.Mean, levelSDLog)

@@ -164,7 +164,7 @@ func (s *scored) likelihood(e *engine, none *scored) {
 			s.logq[f*nd+d] = s.logw[d] + logPrior + ll + norm
 		}
 		for o := range no {
-			if v := math.Abs(mean[o]) / e.cmp.Observed[o].SE; !math.IsNaN(v) {
+			if v := math.Abs(mean[o]) / e.observed[o].SE; !math.IsNaN(v) {
 				s.signal = math.Max(s.signal, v)
 			}
 		}
@@ -196,15 +196,15 @@ func (s *scored) moments() []Moments {
 	return out
 }
 
-// fit is the posterior-predictive χ² check.
-func (s *scored) fit(e *engine, m []Moments) Fit {
+// fit is the posterior-predictive χ² check over observables lo to hi.
+func (s *scored) fit(e *engine, m []Moments, lo, hi int) Fit {
 	var chi2 float64
-	for o := range s.no {
+	for o := lo; o < hi; o++ {
 		r := e.shift[o] - m[o].Mean
 		chi2 += r * r / (e.variance[o] + m[o].SD*m[o].SD)
 	}
-	p := distuv.ChiSquared{K: float64(s.no)}.Survival(chi2)
-	return Fit{Chi2: chi2, DOF: s.no, P: p}
+	p := distuv.ChiSquared{K: float64(hi - lo)}.Survival(chi2)
+	return Fit{Chi2: chi2, DOF: hi - lo, P: p}
 }
 
 // atBoundShare is the share of the prior range (on its integration scale)
@@ -232,6 +232,9 @@ func (s *scored) marginal(a int) []float64 {
 func (s *scored) magnitudes() []Magnitude {
 	var out []Magnitude
 	for a, k := range s.knobs {
+		if k.kind == kindDuration {
+			continue
+		}
 		marg := s.marginal(a)
 		c := k.cand
 		noun := c.Noun
@@ -261,6 +264,31 @@ func (s *scored) magnitudes() []Magnitude {
 		out = append(out, m)
 	}
 	return out
+}
+
+// duration summarises the pulse duration of a hypothesis, nil for a
+// sustained one.
+func (s *scored) duration() *Duration {
+	for a, k := range s.knobs {
+		if k.kind != kindDuration {
+			continue
+		}
+		marg := s.marginal(a)
+		ax := &k.ax
+		u05, u50, u95 := quantileU(marg, ax.ulo, ax.uhi, 0.05), quantileU(marg, ax.ulo, ax.uhi, 0.5), quantileU(marg, ax.ulo, ax.uhi, 0.95)
+		d := &Duration{Best: ax.toNatural(u50), Low: ax.toNatural(u05), High: ax.toNatural(u95), PriorLow: ax.lo, PriorHigh: ax.hi}
+		w := atBoundShare * (ax.uhi - ax.ulo)
+		switch lowAt, highAt := u05 <= ax.ulo+w, u95 >= ax.uhi-w; {
+		case lowAt && highAt:
+			d.AtBound = "both"
+		case lowAt:
+			d.AtBound = "low"
+		case highAt:
+			d.AtBound = "high"
+		}
+		return d
+	}
+	return nil
 }
 
 // magnitudeKind is the JSON kind of a knob's magnitude (DESIGN §7).

@@ -20,8 +20,7 @@ func TestSplineAccuracy(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cmp := &st.Comparisons[0]
-	e, err := newEngine(st, cmp, 0, kb, set, Options{Seed: 1, Draws: 2, ModelError: DefaultModelError})
+	e, err := newEngine(st, unit{idx: []int{0}}, kb, set, Options{Seed: 1, Draws: 2, ModelError: DefaultModelError})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -19,8 +19,9 @@ type catalogueItem struct {
 	obs forward.Observable
 }
 
-// nextMeasurements scores every catalogue measurement not yet made.
-func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, entries []entry, leading []int, index uint64, prog *progress) error {
+// nextMeasurements scores every catalogue measurement not yet made, as a
+// shift at the horizon of part pi.
+func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, entries []entry, leading []int, pi int, prog *progress) error {
 	if len(leading) < 2 {
 		return nil
 	}
@@ -35,7 +36,7 @@ func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, ent
 	if len(items) == 0 {
 		return nil
 	}
-	reps := e.replicates()
+	reps := e.replicates(pi)
 	cr.ReplicatesAssumed = reps
 	// Baseline values of every catalogue observable in every draw.
 	baseVals := make([][]float64, len(e.draws))
@@ -59,12 +60,12 @@ func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, ent
 			}
 			return
 		}
-		rng := newRand(e.opt.Seed, index, 1000+uint64(k))
+		rng := newRand(e.opt.Seed, e.stream, 1000+100*uint64(pi)+uint64(k))
 		theta := make([]float64, len(s.knobs))
 		for _, fd := range s.sample(samplesPerHypothesis, rng) {
 			theta = s.fineTheta(fd[0], theta)
 			d := fd[1]
-			ok := e.run(w, d, s.knobs, theta, true) == nil
+			ok := e.run(w, d, pi, s.knobs, theta, true) == nil
 			for i, it := range items {
 				v := math.NaN()
 				if ok {
@@ -125,12 +126,14 @@ func (e *engine) alreadyObserved(o forward.Observable) bool {
 	return slices.ContainsFunc(e.obs, func(x forward.Observable) bool { return x.Same(o) })
 }
 
-// replicates is the typical replicate count of the study's groups (median
+// replicates is the typical replicate count of part pi's groups (median
 // of the smaller n of each observed pair), used for a new measurement.
-func (e *engine) replicates() int {
+func (e *engine) replicates(pi int) int {
 	var ns []int
-	for _, o := range e.cmp.Observed {
-		ns = append(ns, min(o.Control.N, o.Treatment.N))
+	for _, o := range e.parts[pi].cmp.Observed {
+		if !o.NoLevels() {
+			ns = append(ns, min(o.Control.N, o.Treatment.N))
+		}
 	}
 	if len(ns) == 0 {
 		return defaultReplicates
@@ -154,24 +157,31 @@ func meanSD(v []float64) (float64, float64) {
 // pathPoints is the number of times in a predicted trajectory.
 const pathPoints = 41
 
-// paths predicts how the observed observables move over time under each
-// leading hypothesis at its posterior-median magnitudes on the nominal site
-// with the treatment at its typical sizes.
-func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int) []Path {
+// paths predicts how part pi's observed observables move over time under
+// each leading hypothesis at its posterior-median magnitudes on the nominal
+// site with the treatment at its typical sizes.
+func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int, pi int) []Path {
+	pt := e.parts[pi]
 	w := newWorker(e.site)
 	var out []Path
 	for _, i := range leading {
 		s := entries[i].s
 		h := cr.Hypotheses[i]
-		theta := make([]float64, len(h.Magnitudes))
-		for a, m := range h.Magnitudes {
-			theta[a] = m.Best
+		theta := make([]float64, len(s.knobs))
+		m := 0
+		for a, k := range s.knobs {
+			if k.kind == kindDuration {
+				theta[a] = h.Duration.Best
+				continue
+			}
+			theta[a] = h.Magnitudes[m].Best
+			m++
 		}
-		e.changeFor(w, 0, s.knobs, theta)
+		e.changeFor(w, 0, pi, s.knobs, theta)
 		var times []float64
 		var err error
-		if e.cmp.Years != nil {
-			times, err = forward.EvenTimes(math.Max(2**e.cmp.Years, 2), pathPoints)
+		if y := e.horizon(); y > 0 {
+			times, err = forward.EvenTimes(math.Max(2*y, 2), pathPoints)
 		} else {
 			var p forward.Params
 			if err = w.change.ParamsAt(e.site, &e.draws[0].params, math.Inf(1), &p); err == nil {
@@ -190,7 +200,8 @@ func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int) []P
 			continue
 		}
 		pth := Path{Hypothesis: s.id, Years: times, Shifts: map[string][]float64{}}
-		for o, ob := range e.obs {
+		for o := pt.lo; o < pt.hi; o++ {
+			ob := e.obs[o]
 			vals := make([]float64, len(states))
 			for t := range states {
 				vals[t] = ob.Shift(e.baseVals[0][o], ob.Value(&states[t], &params[t]))
@@ -205,10 +216,11 @@ func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int) []P
 // fluxSamples is the number of posterior samples behind a flux summary.
 const fluxSamples = 32
 
-// fluxes fills each hypothesis's magnitudes with the flux they imply
-// at the observation time: over posterior samples, the flux of each knob's
-// processes under the treatment against the same draw's baseline flux.
-func (e *engine) fluxes(cr *ComparisonResult, entries []entry, index uint64) {
+// fluxes fills each hypothesis's magnitudes with the flux they imply at
+// part pi's observation time: over posterior samples, the flux of each
+// knob's processes under the treatment against the same draw's baseline
+// flux.
+func (e *engine) fluxes(cr *ComparisonResult, entries []entry, pi int) {
 	w := newWorker(e.site)
 	for i := range cr.Hypotheses {
 		h := &cr.Hypotheses[i]
@@ -216,7 +228,7 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, index uint64) {
 			continue
 		}
 		s := entries[i].s
-		rng := newRand(e.opt.Seed, index, 2000+uint64(i))
+		rng := newRand(e.opt.Seed, e.stream, 2000+1000*uint64(pi)+uint64(i))
 		n := len(s.knobs)
 		vals := make([][]float64, n)
 		ratios := make([][]float64, n)
@@ -224,10 +236,13 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, index uint64) {
 		for _, fd := range s.sample(fluxSamples, rng) {
 			theta = s.fineTheta(fd[0], theta)
 			d := fd[1]
-			if e.run(w, d, s.knobs, theta, false) != nil {
+			if e.run(w, d, pi, s.knobs, theta, false) != nil {
 				continue
 			}
 			for a, k := range s.knobs {
+				if k.kind == kindDuration {
+					continue
+				}
 				var now, was float64
 				switch {
 				case k.kind == rules.KnobSource:
@@ -245,7 +260,13 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, index uint64) {
 				}
 			}
 		}
+		m := 0
 		for a, k := range s.knobs {
+			if k.kind == kindDuration {
+				continue
+			}
+			mi := m
+			m++
 			if len(vals[a]) == 0 {
 				continue
 			}
@@ -263,7 +284,7 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, index uint64) {
 				f.HasRatio = true
 				f.Ratio, f.RatioLow, f.RatioHi = quantiles(ratios[a])
 			}
-			h.Magnitudes[a].Flux = f
+			h.Magnitudes[mi].Flux = f
 		}
 	}
 }
@@ -274,4 +295,16 @@ func quantiles(v []float64) (median, low, high float64) {
 	slices.Sort(s)
 	at := func(q float64) float64 { return stat.Quantile(q, stat.LinInterp, s, nil) }
 	return at(0.5), at(0.05), at(0.95)
+}
+
+// horizon is the longest observation time of the unit's parts (0 when
+// every part is read at steady state).
+func (e *engine) horizon() float64 {
+	var y float64
+	for _, p := range e.parts {
+		if p.cmp.Years != nil {
+			y = math.Max(y, *p.cmp.Years)
+		}
+	}
+	return y
 }

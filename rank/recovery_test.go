@@ -65,11 +65,11 @@ func synthesize(t *testing.T, kb *knowledge.Base, tr truth, seed uint64) *study.
 		t.Fatal(err)
 	}
 	if tr.perturb > 0 {
-		ds, err := makeDraws(site, kb, tr.treatment, tr.perturb+1, rand.NewPCG(seed, 4242))
+		ds, err := makeDraws(site, kb, []forward.Treatment{tr.treatment}, tr.perturb+1, rand.NewPCG(seed, 4242))
 		if err != nil {
 			t.Fatal(err)
 		}
-		params, forcing = ds[tr.perturb].params, ds[tr.perturb].forcing
+		params, forcing = ds[tr.perturb].params, ds[tr.perturb].forcing[0]
 	}
 	change := forcing
 	if tr.response != "" {

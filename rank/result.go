@@ -25,6 +25,25 @@ type Result struct {
 	Demo        bool
 	Method      Method
 	Comparisons []ComparisonResult
+	// Series holds the joint ranking of each series (DESIGN §6); its
+	// comparisons keep their own observed and predicted values above.
+	Series []SeriesResult
+}
+
+// SeriesResult is the joint explanation of the comparisons of one series.
+type SeriesResult struct {
+	Name        string
+	Comparisons []string
+	// Kind is "years" (repeated years of one treatment) or "dose" (dose
+	// levels of one addition, the response scaled with the rate).
+	Kind string
+	// Hypotheses sorted by joint posterior; Predicted keyed
+	// "comparison/observable".
+	Hypotheses   []Hypothesis
+	Measurements []Measurement
+	Leading      []string
+	Warnings     []string
+	NoFit        bool
 }
 
 // Method records the settings a reader needs to reproduce a run.
@@ -56,6 +75,12 @@ type ComparisonResult struct {
 	// RuledOut are undeclared sources the site context makes impossible,
 	// named once in a note rather than ranked.
 	RuledOut []string
+	// Series is the name of the series the comparison belongs to; its
+	// hypotheses' posteriors and magnitudes are then the series' joint ones.
+	Series string
+	// Steady is set for a contrast read at the new steady state; ShiftsOnly
+	// when the shifts came from a paper without group levels.
+	Steady, ShiftsOnly bool
 	// Hypotheses sorted by posterior, highest first.
 	Hypotheses []Hypothesis
 	// Measurements sorted by information gain, highest first.
@@ -124,6 +149,8 @@ type Hypothesis struct {
 	Adjustments []rules.Adjustment
 	// Magnitudes holds one summary per knob (two for a pair, none for "none").
 	Magnitudes []Magnitude
+	// Duration is the length of a pulse response (nil when sustained).
+	Duration *Duration
 	// Predicted shift of each observed observable: posterior mean and sd.
 	Predicted map[string]Moments
 	Fit       Fit
@@ -162,6 +189,14 @@ type Magnitude struct {
 	// Flux is what the magnitude means as a flux at the observation time
 	// (nil where it does not apply).
 	Flux *FluxImplied
+}
+
+// Duration is a pulse's length in years: posterior median, 90 % interval
+// and the prior bound it reaches ("low", "high", "both" or "").
+type Duration struct {
+	Best, Low, High     float64
+	PriorLow, PriorHigh float64
+	AtBound             string
 }
 
 // FluxImplied is the flux of a response's processes at the observation

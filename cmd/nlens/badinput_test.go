@@ -48,7 +48,7 @@ groups:
 // csvStudy reads its groups from samples.csv.
 const csvStudy = `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {control: control, treatment: fert}
+  - {control: control, treatment: fert, years: 2}
 samples: samples.csv
 `
 
@@ -83,7 +83,7 @@ transfers:
 // siteStudy uses site.yaml.
 const siteStudy = `site: {file: site.yaml}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 groups:
   a: {foliage: {mean: 1, sd: 1, n: 3}}
   b: {foliage: {mean: 2, sd: 1, n: 3}}

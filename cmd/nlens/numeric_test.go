@@ -237,7 +237,7 @@ groups:
 `, nil},
 		{"huge sd", `site: {template: boreal-conifer-forest}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 groups:
   a: {foliage: {mean: -4, sd: 1e6, n: 2}}
   b: {foliage: {mean: -2, sd: 1e6, n: 2}}

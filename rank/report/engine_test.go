@@ -32,6 +32,7 @@ comparisons:
   - name: cut vs intact, long-standing
     control: intact
     treatment: cut
+    years: steady
 groups:
   intact:
     foliage: {mean: 0.9, sd: 0.8, n: 6}

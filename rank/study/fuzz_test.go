@@ -265,7 +265,7 @@ func fuzzStudySeeds() map[string][]any {
 	const withFiles = "title: site file and samples\n" +
 		"site: {file: site.yaml, mycorrhizal_type: ecto, mean_annual_precip_mm: 900}\n" +
 		"comparisons:\n" +
-		"  - {control: control, treatment: fert}\n" +
+		"  - {control: control, treatment: fert, years: 2}\n" +
 		"  - name: nitrate fertilizer\n" +
 		"    control: control\n" +
 		"    treatment: fert\n" +
@@ -290,7 +290,7 @@ func fuzzStudySeeds() map[string][]any {
 		"pool-extremes":  {rep(goodStudy, "pool:nitrate: {mean: 1.5", "pool:nitrate: {mean: 1e-320", "pool:nitrate: {mean: 4.5", "pool:nitrate: {mean: 1e300"), false},
 		"duplicate-key":  {[]byte(small + "groups: {}\n"), false},
 		"duplicate-obs":  {rep(small, "    soil: {mean: 5.2, sd: 0.5, n: 6}\n", "    soil: {mean: 5.2, sd: 0.5, n: 6}\n    soil: {mean: 5, sd: 1, n: 3}\n"), false},
-		"anchors":        {[]byte("site: {template: temperate-grassland}\ncomparisons: [{control: a, treatment: b}]\ngroups:\n  a: &g {foliage: {mean: 1, sd: 1, n: 3}}\n  b: {<<: *g, soil: {mean: 2, sd: 1, n: 3}}\n"), false},
+		"anchors":        {[]byte("site: {template: temperate-grassland}\ncomparisons: [{control: a, treatment: b, years: 2}]\ngroups:\n  a: &g {foliage: {mean: 1, sd: 1, n: 3}}\n  b: {<<: *g, soil: {mean: 2, sd: 1, n: 3}}\n"), false},
 		"merge-scalar":   {[]byte("site: {template: temperate-grassland}\ngroups:\n  a: &g 5\n  b: {<<: *g}\n"), false},
 		"alias-loop":     {[]byte("site: &s {template: *s}\n"), false},
 		"unknown-anchor": {[]byte("site: {template: dryland-shrubland}\ngroups: *nowhere\n"), false},

@@ -7,7 +7,10 @@ import (
 	"path/filepath"
 	"slices"
 	"sort"
+	"strconv"
 	"strings"
+
+	"go.yaml.in/yaml/v3"
 
 	"nlens/forward"
 	"nlens/knowledge"
@@ -42,13 +45,45 @@ type Study struct {
 type Comparison struct {
 	Name               string
 	Control, Treatment string
-	Years              *float64 // years since the treatment began; nil for a long-standing contrast
+	Years              *float64 // years since the treatment began; nil with years: steady
 	Management         []string
 	// Severity of a fire (low, moderate, high); "" when not given.
 	Severity  string
 	Additions []Addition
 	Observed  []Observed // sorted by observable name
-	Line      int
+	// Steady is set for years: steady (Years is then nil): the contrast is
+	// read at the new steady state.
+	Steady bool
+	// Response is sustained, pulse or either ("" for the default:
+	// sustained alone, either within a series).
+	Response string
+	// Series names the series the comparison belongs to ("" for none).
+	Series string
+	// ShiftsOnly is set when the shifts come from a paper without group
+	// levels: no control absolutes, so no draw weighting or site fit.
+	ShiftsOnly bool
+	Line       int
+}
+
+// Responses a comparison may allow.
+const (
+	ResponseSustained = "sustained"
+	ResponsePulse     = "pulse"
+	ResponseEither    = "either"
+)
+
+// Responses returns whether sustained and pulse responses are considered
+// for the comparison: sustained alone by default, both within a series.
+func (c *Comparison) Responses() (sustained, pulse bool) {
+	switch c.Response {
+	case ResponseSustained:
+		return true, false
+	case ResponsePulse:
+		return false, true
+	case ResponseEither:
+		return true, true
+	}
+	return true, c.Series != ""
 }
 
 // Declared is what the comparison declares was done to the treatment
@@ -89,6 +124,10 @@ type Observed struct {
 	LogRatio           bool // pool or flux: shift is ln(treatment/control)
 }
 
+// NoLevels reports whether the shift came without group levels (from a
+// paper): there are then no control absolutes to compare a model with.
+func (o Observed) NoLevels() bool { return o.Control.N == 0 }
+
 // Context returns the rules context of one comparison.
 func (s *Study) ContextFor(c *Comparison, kb *knowledge.Base) rules.Context {
 	ctx := s.Context
@@ -128,13 +167,21 @@ type siteEntry struct {
 }
 
 type comparisonEntry struct {
-	Name       string          `yaml:"name"`
-	Control    string          `yaml:"control"`
-	Treatment  string          `yaml:"treatment"`
-	Years      *float64        `yaml:"years"`
-	Management []string        `yaml:"management"`
-	Severity   string          `yaml:"severity"`
-	Additions  []additionEntry `yaml:"additions"`
+	Name       string                 `yaml:"name"`
+	Control    string                 `yaml:"control"`
+	Treatment  string                 `yaml:"treatment"`
+	Years      yaml.Node              `yaml:"years"`
+	Management []string               `yaml:"management"`
+	Severity   string                 `yaml:"severity"`
+	Additions  []additionEntry        `yaml:"additions"`
+	Response   string                 `yaml:"response"`
+	Series     string                 `yaml:"series"`
+	Shifts     map[string]*shiftEntry `yaml:"shifts"`
+}
+
+type shiftEntry struct {
+	Shift *float64 `yaml:"shift"`
+	SE    *float64 `yaml:"se"`
 }
 
 type additionEntry struct {
@@ -148,7 +195,8 @@ type additionEntry struct {
 type statEntry struct {
 	Mean *float64 `yaml:"mean"`
 	SD   *float64 `yaml:"sd"`
-	N    *int     `yaml:"n"`
+	SE   *float64 `yaml:"se"`
+	N    *float64 `yaml:"n"`
 }
 
 // group statistics with where they came from, for error messages.
@@ -269,11 +317,27 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 				bad(field, path, "%s", msg)
 				continue
 			}
-			if e == nil || e.Mean == nil || e.SD == nil || e.N == nil {
-				bad(field, path, "expected {mean, sd, n}")
+			if e == nil || e.Mean == nil || e.N == nil || (e.SD == nil) == (e.SE == nil) {
+				bad(field, path, "expected {mean, sd, n} or {mean, se, n}")
 				continue
 			}
-			s := Stat{Mean: *e.Mean, SD: *e.SD, N: *e.N}
+			n, msg := replicates(*e.N)
+			if msg != "" {
+				bad(field+".n", append(path, "n"), "%s", msg)
+				continue
+			}
+			s := Stat{Mean: *e.Mean, N: n}
+			if e.SD != nil {
+				s.SD = *e.SD
+			} else {
+				// A standard error of the mean from a paper: sd = se·√n, so
+				// the shift's SE is the same as from the group's sd.
+				s.SD = *e.SE * math.Sqrt(float64(n))
+				if !(*e.SE >= 0) || math.IsInf(*e.SE, 0) {
+					bad(field+".se", append(path, "se"), "se must be a number ≥ 0, got %g", *e.SE)
+					continue
+				}
+			}
 			if msg := checkStat(obs, s, opt); msg != "" {
 				key := map[bool]string{true: "n", false: "sd"}[s.N < 2]
 				if strings.HasPrefix(msg, "mean") || strings.HasPrefix(msg, "δ") || strings.HasPrefix(msg, "a pool") {
@@ -326,7 +390,10 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 	for i, ce := range f.Comparisons {
 		field := func(k string) string { return fmt.Sprintf("comparisons[%d].%s", i, k) }
 		path := func(k ...any) []any { return append([]any{"comparisons", i}, k...) }
-		c := Comparison{Name: ce.Name, Control: ce.Control, Treatment: ce.Treatment, Years: ce.Years, Management: ce.Management, Line: doc.Line("comparisons", i)}
+		c := Comparison{Name: ce.Name, Control: ce.Control, Treatment: ce.Treatment, Management: ce.Management, Series: ce.Series, Line: doc.Line("comparisons", i)}
+		if c.Name == "" && len(ce.Shifts) > 0 && ce.Treatment == "" {
+			c.Name = fmt.Sprintf("comparison %d", i+1)
+		}
 		if c.Name == "" {
 			c.Name = fmt.Sprintf("%s vs %s", ce.Treatment, ce.Control)
 		}
@@ -335,10 +402,17 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 		}
 		names[c.Name] = i
 		ok := true
+		shiftsOnly := len(ce.Shifts) > 0
+		if shiftsOnly && (ce.Control != "" || ce.Treatment != "") {
+			bad(field("shifts"), path("shifts"), "give either control and treatment groups or shifts taken from a paper, not both")
+			shiftsOnly = false
+		}
 		for _, role := range []struct{ key, name string }{{"control", ce.Control}, {"treatment", ce.Treatment}} {
 			switch {
+			case shiftsOnly:
+				ok = false
 			case role.name == "":
-				bad(field(role.key), path(), "missing %s group", role.key)
+				bad(field(role.key), path(), "missing %s group (or give shifts: {OBSERVABLE: {shift, se}} from a paper)", role.key)
 				ok = false
 			case groups[role.name] == nil && samplesUnread:
 				ok = false
@@ -351,8 +425,26 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 			bad(field("treatment"), path("treatment"), "treatment and control are the same group %q", ce.Control)
 			ok = false
 		}
-		if c.Years != nil && (!(*c.Years >= 0) || math.IsInf(*c.Years, 0) || *c.Years > 10000) {
-			bad(field("years"), path("years"), "years since the treatment began must be between 0 and 10000, got %g", *c.Years)
+		switch y := ce.Years; {
+		case y.Kind == 0:
+			bad(field("years"), path(), "missing: give the years since the treatment began (years: 3), or years: steady for a long-standing contrast read at the new steady state")
+		case y.Kind == yaml.ScalarNode && y.Value == "steady":
+			c.Steady = true
+		default:
+			var v float64
+			if err := y.Decode(&v); err != nil || y.Kind != yaml.ScalarNode {
+				bad(field("years"), path("years"), "expected a number of years since the treatment began, or steady, got %s", quoteNode(&y))
+			} else if !(v >= 0) || math.IsInf(v, 0) || v > 10000 {
+				bad(field("years"), path("years"), "years since the treatment began must be between 0 and 10000, got %g", v)
+			} else {
+				c.Years = &v
+			}
+		}
+		switch ce.Response {
+		case "", ResponseSustained, ResponsePulse, ResponseEither:
+			c.Response = ce.Response
+		default:
+			bad(field("response"), path("response"), "expected sustained, pulse or either, got %q", ce.Response)
 		}
 		tags := kb.ManagementTags()
 		for k, t := range c.Management {
@@ -410,6 +502,31 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 			}
 			c.Additions = append(c.Additions, a)
 		}
+		if shiftsOnly {
+			c.ShiftsOnly = true
+			for _, obs := range sortedKeys(ce.Shifts) {
+				e := ce.Shifts[obs]
+				sp := path("shifts", obs)
+				sf := field("shifts." + obs)
+				if msg := checkObservable(st.Site, obs); msg != "" {
+					bad(sf, sp, "%s", msg)
+					continue
+				}
+				if e == nil || e.Shift == nil || e.SE == nil {
+					bad(sf, sp, "expected {shift, se}")
+					continue
+				}
+				if math.IsNaN(*e.Shift) || math.IsInf(*e.Shift, 0) || math.Abs(*e.Shift) > 1000 {
+					bad(sf+".shift", append(sp, "shift"), "a shift must be a finite number within ±1000, got %g", *e.Shift)
+					continue
+				}
+				if !(*e.SE > 0) || math.IsInf(*e.SE, 0) {
+					bad(sf+".se", append(sp, "se"), "se must be a number > 0, got %g", *e.SE)
+					continue
+				}
+				c.Observed = append(c.Observed, Observed{Observable: obs, Shift: *e.Shift, SE: *e.SE, DF: math.Inf(1), LogRatio: forward.LogRatioName(obs)})
+			}
+		}
 		if ok {
 			ctl, trt := groups[ce.Control], groups[ce.Treatment]
 			for _, obs := range sortedKeys(ctl) {
@@ -430,10 +547,65 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 		}
 		st.Comparisons = append(st.Comparisons, c)
 	}
+	errs = append(errs, checkSeries(doc, st.Comparisons)...)
 	if len(errs) > 0 {
 		return nil, errs
 	}
 	return st, nil
+}
+
+// checkSeries refuses a series whose comparisons are neither repeated
+// years of one treatment nor dose levels of one addition (DESIGN §6).
+func checkSeries(doc *knowledge.Doc, cs []Comparison) knowledge.InputErrors {
+	var errs knowledge.InputErrors
+	first := map[string]int{}
+	for i, c := range cs {
+		if c.Series == "" {
+			continue
+		}
+		j, seen := first[c.Series]
+		if !seen {
+			first[c.Series] = i
+			continue
+		}
+		a, b := cs[j], c
+		same := slices.Equal(a.Management, b.Management) && a.Severity == b.Severity && len(a.Additions) == len(b.Additions)
+		for k := range a.Additions {
+			if !same {
+				break
+			}
+			x, y := a.Additions[k], b.Additions[k]
+			same = x.Source == y.Source && x.DurationYears == y.DurationYears
+		}
+		if !same {
+			errs = append(errs, doc.Errorf(fmt.Sprintf("comparisons[%d].series", i), []any{"comparisons", i, "series"},
+				"comparisons of series %q must share their treatment (repeated years) or differ only in the rates of the same additions (dose levels); %q and %q differ otherwise", c.Series, a.Name, b.Name))
+		}
+	}
+	return errs
+}
+
+// DoseScale returns, for each comparison of a series, the rate of its
+// additions relative to the largest in the series (1 for every comparison
+// when the rates are equal or there are none): the factor by which the
+// series' response scales at each dose level (DESIGN §6).
+func DoseScale(cs []Comparison) []float64 {
+	total := make([]float64, len(cs))
+	var maxTotal float64
+	for i, c := range cs {
+		for _, a := range c.Additions {
+			total[i] += a.RateKgPerHaYr
+		}
+		maxTotal = math.Max(maxTotal, total[i])
+	}
+	out := make([]float64, len(cs))
+	for i := range out {
+		out[i] = 1
+		if maxTotal > 0 {
+			out[i] = total[i] / maxTotal
+		}
+	}
+	return out
 }
 
 // observe computes one shift with its Welch standard error and degrees of
@@ -460,6 +632,24 @@ func observe(obs string, c, t Stat) Observed {
 		o.DF = float64(c.N) + float64(t.N) - 2
 	}
 	return o
+}
+
+// MaxReplicates bounds a group's n: far beyond any field design, and
+// within it every count is exact in a float64.
+const MaxReplicates = 1e6
+
+// replicates checks a replicate count from a study file: a whole number
+// from 2 to MaxReplicates.
+func replicates(v float64) (int, string) {
+	switch {
+	case math.IsNaN(v) || math.IsInf(v, 0) || v != math.Trunc(v):
+		return 0, fmt.Sprintf("n must be a whole number of replicates, got %g", v)
+	case v < 2:
+		return 0, fmt.Sprintf("n must be at least 2 to estimate a standard error, got %g", v)
+	case v > MaxReplicates:
+		return 0, fmt.Sprintf("n must be at most %g replicates, got %g", MaxReplicates, v)
+	}
+	return int(v), ""
 }
 
 // checkObservable returns a message if the observable is unknown or the site
@@ -528,6 +718,14 @@ func deltaProblem(name string, v float64, natural bool, opt Options) string {
 		return fmt.Sprintf("%s %g ‰ is beyond natural abundance (|δ| > %d ‰); use --allow-enriched for a tracer study", name, v, MaxNaturalPermil)
 	}
 	return ""
+}
+
+// quoteNode shows a YAML value in an error message.
+func quoteNode(n *yaml.Node) string {
+	if n.Kind == yaml.ScalarNode {
+		return strconv.Quote(n.Value)
+	}
+	return "a " + map[yaml.Kind]string{yaml.SequenceNode: "list", yaml.MappingNode: "mapping"}[n.Kind]
 }
 
 func sortedKeys[V any](m map[string]V) []string {

@@ -90,7 +90,7 @@ func TestSamplesCSV(t *testing.T) {
 	t.Parallel()
 	text := `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {name: a vs b, control: b, treatment: a}
+  - {name: a vs b, control: b, treatment: a, years: 2}
 samples: rows.csv
 `
 	csv := "sample,group,observable,d15n,unit,depth_cm,species,note\n" +
@@ -142,48 +142,70 @@ func TestBadStudies(t *testing.T) {
 			`study.yaml:11: comparisons[0].treatment: treatment and control are the same group "control"`},
 		{"negative years", strings.Replace(goodStudy, "years: 4", "years: -4", 1), nil, Options{},
 			"study.yaml:12: comparisons[0].years: years since the treatment began must be between 0 and 10000, got -4"},
+		{"missing years", strings.Replace(goodStudy, "    years: 4\n", "", 1), nil, Options{},
+			"study.yaml:9: comparisons[0].years: missing: give the years since the treatment began (years: 3), or years: steady for a long-standing contrast read at the new steady state"},
+		{"years as words", strings.Replace(goodStudy, "years: 4", "years: long", 1), nil, Options{},
+			`study.yaml:12: comparisons[0].years: expected a number of years since the treatment began, or steady, got "long"`},
+		{"fractional n", strings.Replace(goodStudy, "soil: {mean: 4.2, sd: 0.5, n: 4}", "soil: {mean: 4.2, sd: 0.5, n: 4.5}", 1), nil, Options{},
+			"study.yaml:23: groups.fert.soil.n: n must be a whole number of replicates, got 4.5"},
+		{"overflowing n", strings.Replace(goodStudy, "soil: {mean: 4.2, sd: 0.5, n: 4}", "soil: {mean: 4.2, sd: 0.5, n: 1e300}", 1), nil, Options{},
+			"study.yaml:23: groups.fert.soil.n: n must be at most 1e+06 replicates, got 1e+300"},
+		{"sd and se", strings.Replace(goodStudy, "soil: {mean: 4.2, sd: 0.5, n: 4}", "soil: {mean: 4.2, sd: 0.5, se: 0.25, n: 4}", 1), nil, Options{},
+			"study.yaml:23: groups.fert.soil: expected {mean, sd, n} or {mean, se, n}"},
+		{"bad response", strings.Replace(goodStudy, "years: 4", "years: 4\n    response: transient", 1), nil, Options{},
+			`study.yaml:13: comparisons[0].response: expected sustained, pulse or either, got "transient"`},
+		{"shifts and groups", strings.Replace(goodStudy, "years: 4", "years: 4\n    shifts: {foliage: {shift: 2, se: 0.5}}", 1), nil, Options{},
+			"study.yaml:13: comparisons[0].shifts: give either control and treatment groups or shifts taken from a paper, not both"},
+		{"series of unlike treatments", `site: {template: temperate-deciduous-forest}
+comparisons:
+  - {name: cut 2, control: a, treatment: b, years: 2, series: cut, management: [clear-cut]}
+  - {name: burn 4, control: a, treatment: b, years: 4, series: cut, management: [burned]}
+groups:
+  a: {foliage: {mean: 1, sd: 1, n: 3}}
+  b: {foliage: {mean: 2, sd: 1, n: 3}}
+`, nil, Options{}, `study.yaml:4: comparisons[1].series: comparisons of series "cut" must share their treatment (repeated years) or differ only in the rates of the same additions (dose levels); "cut 2" and "burn 4" differ otherwise`},
 		{"no shared observable", `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 groups:
   a: {foliage: {mean: 1, sd: 1, n: 3}}
   b: {soil: {mean: 1, sd: 1, n: 3}}
 `, nil, Options{}, `study.yaml:3: comparisons[0].treatment: groups "a" and "b" share no observable, so there is no shift to explain`},
 		{"observable the site lacks", `site: {template: fertilized-cropland}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 groups:
   a: {fungi: {mean: 1, sd: 1, n: 3}}
   b: {fungi: {mean: 1, sd: 1, n: 3}}
 `, nil, Options{}, `study.yaml:5: groups.a.fungi: observable "fungi" needs a fungi pool`},
 		{"csv bad number", `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 samples: rows.csv
 `, map[string]string{"rows.csv": "sample,group,observable,value\nx1,a,foliage,1.2\nx2,a,foliage,one\n"}, Options{}, `rows.csv:3: value: expected a number, got "one"`},
 		{"csv missing column", `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 samples: rows.csv
 `, map[string]string{"rows.csv": "sample,group,value\nx1,a,1.2\n"}, Options{}, `rows.csv:1: observable: missing column "observable"`},
 		{"csv single sample", `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 samples: rows.csv
 `, map[string]string{"rows.csv": "sample,group,observable,value\nx1,a,foliage,1\nx2,b,foliage,2\nx3,b,foliage,2.5\n"}, Options{}, `rows.csv:2: group: group "a" has only one sample of foliage`},
 		{"csv missing file", `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 samples: nowhere.csv
 `, nil, Options{}, `study.yaml:4: samples: cannot read samples file nowhere.csv: file does not exist`},
 		{"csv unreadable row", `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 samples: rows.csv
 `, map[string]string{"rows.csv": "sample,group,observable,value\nx1,a,foliage,\"1.2\nx2,a,foliage,1\n"}, Options{}, `rows.csv:2: unreadable CSV row`},
 		{"csv duplicate sample", `site: {template: temperate-deciduous-forest}
 comparisons:
-  - {control: a, treatment: b}
+  - {control: a, treatment: b, years: 2}
 samples: rows.csv
 `, map[string]string{"rows.csv": "sample,group,observable,value\nx1,a,foliage,1\nx1,a,foliage,2\n"}, Options{}, `rows.csv:3: sample: sample "x1" already has a value of foliage on line 2`},
 	}
@@ -210,5 +232,76 @@ func TestAllowEnriched(t *testing.T) {
 	text := strings.Replace(goodStudy, "foliage: {mean: 1.0, sd: 0.8", "foliage: {mean: 140, sd: 0.8", 1)
 	if _, err := parse(t, text, nil, Options{AllowEnriched: true}); err != nil {
 		t.Errorf("with AllowEnriched: %v", err)
+	}
+}
+
+// A group given as mean ± SE (as papers report it) gives the same shift
+// and SE as the same group given as mean ± sd: sd = SE·√n (the definition
+// of the standard error of a mean).
+func TestSEInputMatchesSD(t *testing.T) {
+	t.Parallel()
+	bySD, err := parse(t, goodStudy, nil, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// sd 0.8, n 5 → se 0.8/√5 = 0.357771 (hand computation).
+	text := strings.Replace(goodStudy, "foliage: {mean: 1.0, sd: 0.8, n: 5}", "foliage: {mean: 1.0, se: 0.35777087639996635, n: 5}", 1)
+	bySE, err := parse(t, text, nil, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, b := bySD.Comparisons[0].Observed, bySE.Comparisons[0].Observed
+	for i := range a {
+		if math.Abs(a[i].Shift-b[i].Shift) > 1e-12 || math.Abs(a[i].SE-b[i].SE) > 1e-12 || math.Abs(a[i].DF-b[i].DF) > 1e-9 {
+			t.Errorf("%s: sd gives %g ± %g (df %g), se gives %g ± %g (df %g)", a[i].Observable, a[i].Shift, a[i].SE, a[i].DF, b[i].Shift, b[i].SE, b[i].DF)
+		}
+	}
+}
+
+// Shifts taken from a paper (shift ± SE, no groups) are read as given and
+// marked, so that explain knows it has no control levels.
+func TestShiftsFromAPaper(t *testing.T) {
+	t.Parallel()
+	st, err := parse(t, `site: {template: temperate-deciduous-forest}
+comparisons:
+  - name: clear-cut, years 1–2
+    years: 2
+    management: [clear-cut]
+    shifts: {foliage: {shift: 2.9, se: 0.6}, soil: {shift: 0.1, se: 0.3}}
+`, nil, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := st.Comparisons[0]
+	if !c.ShiftsOnly || len(c.Observed) != 2 || c.Observed[0].Observable != "foliage" || c.Observed[0].Shift != 2.9 || c.Observed[0].SE != 0.6 {
+		t.Errorf("got %+v", c)
+	}
+}
+
+// years: steady is accepted only as written, and marks the comparison.
+func TestYearsSteady(t *testing.T) {
+	t.Parallel()
+	st, err := parse(t, strings.Replace(goodStudy, "years: 4", "years: steady", 1), nil, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if c := st.Comparisons[0]; !c.Steady || c.Years != nil {
+		t.Errorf("years: steady gave Steady %v, Years %v", c.Steady, c.Years)
+	}
+}
+
+// Dose levels scale with their rate relative to the largest (DESIGN §6).
+func TestDoseScale(t *testing.T) {
+	t.Parallel()
+	cs := []Comparison{
+		{Additions: []Addition{{Source: "ammonium-nitrate", RateKgPerHaYr: 35}}},
+		{Additions: []Addition{{Source: "ammonium-nitrate", RateKgPerHaYr: 70}}},
+		{Additions: []Addition{{Source: "ammonium-nitrate", RateKgPerHaYr: 108}}},
+	}
+	got := DoseScale(cs)
+	for i, want := range []float64{35.0 / 108, 70.0 / 108, 1} { // Norrliden doses, FACTS-2 §1a
+		if math.Abs(got[i]-want) > 1e-12 {
+			t.Errorf("level %d: %g, want %g", i, got[i], want)
+		}
 	}
 }
