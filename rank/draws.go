@@ -2,7 +2,6 @@ package rank
 
 import (
 	"math"
-	"math/rand/v2"
 
 	"gonum.org/v1/gonum/stat/distuv"
 
@@ -22,16 +21,63 @@ type draw struct {
 	severity string
 }
 
-// sampleWithin draws from a knowledge distribution over [lo, hi] with mode
-// (or typical value) mode.
-func sampleWithin(dist string, lo, hi, mode float64, rng rand.Source) float64 {
+// sampleWithin maps a uniform u in (0, 1) to a knowledge distribution over
+// [lo, hi] with mode (or typical value) mode, by its quantile function.
+func sampleWithin(dist string, lo, hi, mode, u float64) float64 {
 	if dist == knowledge.DistFixed || !(hi > lo) {
 		return mode
 	}
 	if dist == knowledge.DistUniform {
-		return distuv.Uniform{Min: lo, Max: hi, Src: rng}.Rand()
+		return lo + u*(hi-lo)
 	}
-	return distuv.NewTriangle(lo, hi, math.Min(math.Max(mode, lo), hi), rng).Rand()
+	return distuv.NewTriangle(lo, hi, math.Min(math.Max(mode, lo), hi), nil).Quantile(u)
+}
+
+// stratified hands out the uniforms of the nuisance draws as a Latin
+// hypercube design in blocks (McKay, Beckman & Conover 1979): within a
+// block of B draws, the k-th uniform each draw asks for (its dimension k)
+// falls once into each of the B strata [i/B, (i+1)/B). Blocks are [1, n0)
+// and then [n0·2^(j−1), n0·2^j), so doubling the draws adds a block and
+// keeps every earlier draw. Each stratum's permutation and jitter come from
+// their own PCG stream, so a draw does not depend on how many there are.
+type stratified struct {
+	seed, stream uint64
+	n0           int
+	block, size  int // current draw's block index and block size
+	i, dim       int // its index in the block and the next dimension
+	strata       map[[2]int][]float64
+}
+
+func newStratified(seed, stream uint64, n0 int) *stratified {
+	return &stratified{seed: seed, stream: stream, n0: max(n0, 2), strata: map[[2]int][]float64{}}
+}
+
+// startDraw positions the design at draw d ≥ 1.
+func (s *stratified) startDraw(d int) {
+	start, size, b := 1, s.n0-1, 0
+	for d >= start+size {
+		start += size
+		size = start
+		b++
+	}
+	s.block, s.size, s.i, s.dim = b, size, d-start, 0
+}
+
+// uniform returns the current draw's next stratified uniform in (0, 1).
+func (s *stratified) uniform() float64 {
+	key := [2]int{s.block, s.dim}
+	s.dim++
+	us, ok := s.strata[key]
+	if !ok {
+		rng := newRand(s.seed, s.stream, 1<<40|uint64(s.block)<<20|uint64(key[1]))
+		perm := rng.Perm(s.size)
+		us = make([]float64, s.size)
+		for i := range us {
+			us[i] = (float64(perm[i]) + rng.Float64()) / float64(s.size)
+		}
+		s.strata[key] = us
+	}
+	return math.Min(math.Max(us[s.i], 1e-12), 1-1e-12)
 }
 
 // makeDraws returns n nuisance draws; draw 0 is the nominal site with the
@@ -44,10 +90,12 @@ func sampleWithin(dist string, lo, hi, mode float64, rng rand.Source) float64 {
 // uptake reductions and their recovery time, unmeasured δ of additions)
 // from its triangular range, and a fire's severity, when the
 // study does not give it, uniformly from low, moderate and high.
-func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, n int, rng rand.Source) ([]draw, error) {
-	norm := distuv.Normal{Mu: 0, Sigma: 1, Src: rng}
+func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, n int, lhs *stratified) ([]draw, error) {
 	out := make([]draw, n)
 	for d := range out {
+		if d > 0 {
+			lhs.startDraw(d)
+		}
 		p := site.Params()
 		dr := draw{srcDelta: map[string][2]float64{}}
 		part := func(s knowledge.Source, pt knowledge.SourcePart) {
@@ -56,9 +104,9 @@ func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, 
 				d18 = *pt.D18OPermil
 			}
 			if d > 0 {
-				d15 = sampleWithin(knowledge.DistTriangular, pt.D15NRangePermil[0], pt.D15NRangePermil[1], pt.D15NPermil, rng)
+				d15 = sampleWithin(knowledge.DistTriangular, pt.D15NRangePermil[0], pt.D15NRangePermil[1], pt.D15NPermil, lhs.uniform())
 				if pt.D18OPermil != nil {
-					d18 = sampleWithin(knowledge.DistTriangular, pt.D18ORangePermil[0], pt.D18ORangePermil[1], *pt.D18OPermil, rng)
+					d18 = sampleWithin(knowledge.DistTriangular, pt.D18ORangePermil[0], pt.D18ORangePermil[1], *pt.D18OPermil, lhs.uniform())
 				}
 			}
 			dr.srcDelta[s.ID+"/"+pt.Pool] = [2]float64{d15, d18}
@@ -67,17 +115,17 @@ func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, 
 			for j, t := range site.Transfers {
 				eff, _ := kb.Effect(t.Process)
 				if !t.EpsilonFixed {
-					p.Eps15[j] = sampleWithin(eff.Distribution, eff.RangePermil[0], eff.RangePermil[1], eff.EpsilonPermil, rng)
+					p.Eps15[j] = sampleWithin(eff.Distribution, eff.RangePermil[0], eff.RangePermil[1], eff.EpsilonPermil, lhs.uniform())
 				}
 				if !t.Epsilon18Fixed {
 					ratio := t.D18ORatio
 					if eff.D18ORatio != nil && len(eff.D18ORatioRange) == 2 {
-						ratio = sampleWithin(knowledge.DistTriangular, eff.D18ORatioRange[0], eff.D18ORatioRange[1], *eff.D18ORatio, rng)
+						ratio = sampleWithin(knowledge.DistTriangular, eff.D18ORatioRange[0], eff.D18ORatioRange[1], *eff.D18ORatio, lhs.uniform())
 					}
 					p.Eps18[j] = ratio * p.Eps15[j]
 				}
 				if t.Spread > 0 {
-					p.K[j] *= math.Exp(t.Spread * norm.Rand())
+					p.K[j] *= math.Exp(t.Spread * distuv.UnitNormal.Quantile(lhs.uniform()))
 				}
 			}
 			for i, in := range site.Inputs {
@@ -90,15 +138,15 @@ func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, 
 					pt = src.Parts[0]
 				}
 				if !in.D15NFixed {
-					p.Inputs[i].D15N = sampleWithin(knowledge.DistTriangular, pt.D15NRangePermil[0], pt.D15NRangePermil[1], pt.D15NPermil, rng)
+					p.Inputs[i].D15N = sampleWithin(knowledge.DistTriangular, pt.D15NRangePermil[0], pt.D15NRangePermil[1], pt.D15NPermil, lhs.uniform())
 				}
 				if !in.D18OFixed && pt.D18OPermil != nil {
-					p.Inputs[i].D18O = sampleWithin(knowledge.DistTriangular, pt.D18ORangePermil[0], pt.D18ORangePermil[1], *pt.D18OPermil, rng)
+					p.Inputs[i].D18O = sampleWithin(knowledge.DistTriangular, pt.D18ORangePermil[0], pt.D18ORangePermil[1], *pt.D18OPermil, lhs.uniform())
 				}
 			}
 			if !site.NitrificationD18OFixed {
 				no := kb.NitrateOxygen
-				p.NitrificationD18O = sampleWithin(knowledge.DistTriangular, no.RangePermil[0], no.RangePermil[1], no.NitrificationD18OPermil, rng)
+				p.NitrificationD18O = sampleWithin(knowledge.DistTriangular, no.RangePermil[0], no.RangePermil[1], no.NitrificationD18OPermil, lhs.uniform())
 			}
 		}
 		for _, s := range kb.Sources {
@@ -114,12 +162,12 @@ func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, 
 			size = func(key string, sz knowledge.Size) float64 {
 				v, ok := sizes[key]
 				if !ok {
-					v = sampleWithin(knowledge.DistTriangular, sz.Range[0], sz.Range[1], sz.Typical, rng)
+					v = sampleWithin(knowledge.DistTriangular, sz.Range[0], sz.Range[1], sz.Typical, lhs.uniform())
 					sizes[key] = v
 				}
 				return v
 			}
-			dr.severity = knowledge.Severities[rand.New(rng).IntN(len(knowledge.Severities))]
+			dr.severity = knowledge.Severities[min(int(lhs.uniform()*float64(len(knowledge.Severities))), len(knowledge.Severities)-1)]
 		}
 		for _, tr := range trs {
 			t := tr

@@ -359,9 +359,8 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 		trs = append(trs, pt.tr)
 	}
 	e.stream = seedStream
-	rng := newRand(e.opt.Seed, seedStream, 0)
 	var err error
-	e.draws, err = makeDraws(e.site, e.kb, trs, e.opt.Draws, rng)
+	e.draws, err = makeDraws(e.site, e.kb, trs, e.opt.Draws, newStratified(e.opt.Seed, seedStream, e.opt.FirstDraws))
 	if err != nil {
 		return err
 	}

@@ -29,6 +29,12 @@ type scored struct {
 	// signal is the largest departure of the draw-averaged predictions from
 	// none's, over fine points and observables, in observed standard errors.
 	signal float64
+	// relVar is the relative Monte Carlo variance of the evidence over the
+	// nuisance draws: Var(Ẑ)/Z² = Σ_d (q_d − w_d)², with q_d the posterior
+	// mass of draw d and w_d its weight (the self-normalised importance
+	// estimator's delta-method variance; Owen 2013, Monte Carlo theory,
+	// methods and examples, ch. 9).
+	relVar float64
 }
 
 // fineCount is the number of fine points of the hypothesis.
@@ -173,6 +179,15 @@ func (s *scored) likelihood(e *engine, none *scored) {
 	for i := range s.logq {
 		s.logq[i] -= s.logZ
 	}
+	if nd > 1 {
+		q := make([]float64, nd)
+		for i, lq := range s.logq {
+			q[i%nd] += math.Exp(lq)
+		}
+		for d := range nd {
+			s.relVar += (q[d] - w[d]) * (q[d] - w[d])
+		}
+	}
 }
 
 // moments returns the posterior mean and sd of each observed observable's
@@ -261,7 +276,73 @@ func (s *scored) magnitudes() []Magnitude {
 			m.AtBound = "high"
 		}
 		m.PriorLow, m.PriorHigh = ax.lo, ax.hi
+		m.Modes = modes(marg, ax)
 		out = append(out, m)
+	}
+	return out
+}
+
+// Two modes are reported as two when each holds at least modeMass of the
+// posterior and the density between them falls below modeDip of the lower
+// peak (after a 5-point running mean over the fine grid).
+const (
+	modeMass = 0.1
+	modeDip  = 0.5
+)
+
+// modes returns the two separated modes of a marginal, each with its
+// median and 90 % interval, or nil when the posterior has one.
+func modes(marg []float64, ax *axis) []Mode {
+	n := len(marg)
+	sm := make([]float64, n)
+	for i := range n {
+		var s float64
+		var k int
+		for j := max(0, i-2); j <= min(n-1, i+2); j++ {
+			s += marg[j]
+			k++
+		}
+		sm[i] = s / float64(k)
+	}
+	var total float64
+	for _, v := range marg {
+		total += v
+	}
+	// The valley that best separates the mass: for each cut, the lower of
+	// the two peaks on either side against the dip at the cut.
+	best, cut := 0.0, -1
+	for c := 1; c < n-1; c++ {
+		var left, right, lp, rp float64
+		for i := range c {
+			left += marg[i]
+			lp = math.Max(lp, sm[i])
+		}
+		for i := c + 1; i < n; i++ {
+			right += marg[i]
+			rp = math.Max(rp, sm[i])
+		}
+		if left/total < modeMass || right/total < modeMass {
+			continue
+		}
+		low := math.Min(lp, rp)
+		if sm[c] < modeDip*low && low-sm[c] > best {
+			best, cut = low-sm[c], c
+		}
+	}
+	if cut < 0 {
+		return nil
+	}
+	h := (ax.uhi - ax.ulo) / float64(n)
+	var out []Mode
+	for _, r := range [][2]int{{0, cut}, {cut + 1, n}} {
+		part := marg[r[0]:r[1]]
+		lo, hi := ax.ulo+h*float64(r[0]), ax.ulo+h*float64(r[1])
+		var mass float64
+		for _, v := range part {
+			mass += v
+		}
+		q := func(p float64) float64 { return ax.toNatural(quantileU(part, lo, hi, p)) }
+		out = append(out, Mode{Best: q(0.5), Low: q(0.05), High: q(0.95), Mass: mass / total})
 	}
 	return out
 }

@@ -25,6 +25,12 @@ type Options struct {
 	ModelError float64
 	// Workers bounds the goroutines; 0 means GOMAXPROCS.
 	Workers int
+	// MaxDraws bounds the adaptive draws (0: DefaultMaxDraws); FixedDraws
+	// turns the adaptation off (Draws are used as given). FirstDraws is set
+	// by Explain to the first round's draws (the design's first block).
+	MaxDraws   int
+	FixedDraws bool
+	FirstDraws int
 	// Progress, if set, is called with the work done and the total.
 	Progress func(done, total int)
 	Version  string
@@ -76,6 +82,10 @@ func Explain(ctx context.Context, st *study.Study, kb *knowledge.Base, set *rule
 	if opt.Workers <= 0 {
 		opt.Workers = runtime.GOMAXPROCS(0)
 	}
+	if opt.MaxDraws <= 0 {
+		opt.MaxDraws = DefaultMaxDraws
+	}
+	opt.FirstDraws = opt.Draws
 	res := &Result{Version: opt.Version, Seed: opt.Seed, Draws: opt.Draws, ModelError: opt.ModelError,
 		StudyTitle: st.Title, StudyFile: st.File, SiteRef: st.SiteRef, SiteID: st.Site.ID, SiteDescription: st.Site.Description, Context: st.Context,
 		Method: Method{
@@ -300,10 +310,44 @@ func (v variant) id() string {
 // pulseSuffix marks the id of a pulse response.
 const pulseSuffix = ":pulse"
 
+// Adaptive draws (DESIGN §5): the draws double from Options.Draws until the
+// Monte Carlo error of the top posteriors is below mcseTarget, at most up
+// to Options.MaxDraws.
+const (
+	mcseTarget      = 0.02
+	mcseTop         = 3
+	DefaultMaxDraws = 384
+)
+
+// explainUnit explains a unit with as many draws as its top posteriors
+// need (DESIGN §5): the first draws of a larger run are those of the
+// smaller one, so each doubling only adds draws.
 func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt Options, prog *progress) ([]ComparisonResult, *SeriesResult, error) {
+	maxDraws := max(opt.MaxDraws, opt.Draws)
+	for {
+		out, sr, worst, err := explainUnitDraws(ctx, st, u, kb, set, opt, prog)
+		if err != nil || worst <= mcseTarget || opt.Draws >= maxDraws || opt.FixedDraws {
+			if err == nil && worst > mcseTarget && !opt.FixedDraws {
+				msg := fmt.Sprintf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", worst, opt.Draws, mcseTarget)
+				for k := range out {
+					out[k].Warnings = append(out[k].Warnings, msg)
+				}
+				if sr != nil {
+					sr.Warnings = append(sr.Warnings, msg)
+				}
+			}
+			return out, sr, err
+		}
+		opt.Draws = min(2*opt.Draws, maxDraws)
+	}
+}
+
+// explainUnitDraws explains a unit with opt.Draws draws and returns the
+// largest Monte Carlo error of its top posteriors.
+func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt Options, prog *progress) ([]ComparisonResult, *SeriesResult, float64, error) {
 	e, err := newEngine(st, u, kb, set, opt)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, 0, err
 	}
 	site := e.site
 	sustained, pulse := e.parts[0].cmp.Responses()
@@ -352,7 +396,7 @@ func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Bas
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
-		return nil, nil, err
+		return nil, nil, 0, err
 	}
 	noneCand := set.Candidate(rules.None)
 	nonePrior, noneAdj := set.Prior(noneCand, e.ctx)
@@ -382,7 +426,7 @@ func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Bas
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
-		return nil, nil, err
+		return nil, nil, 0, err
 	}
 	for i, j := range jobs {
 		s := pairScores[i]
@@ -464,6 +508,17 @@ func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Bas
 	if len(quiet) > 0 {
 		e.warnf("%s would not move the observed quantities beyond their standard error from what %s predicts anywhere in %s prior range, so the data cannot speak to %s; %s counted with %q", strings.Join(quiet, ", "), hyps[0].Label, map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1], hyps[0].Label)
 	}
+	// Monte Carlo error of each posterior: dlog p_H = (1 − p_H)·dlog Z_H −
+	// Σ_{k≠H} p_k·dlog Z_k, with the relative variances of the evidences
+	// taken as independent.
+	var s2 float64
+	for i := range hyps {
+		s2 += hyps[i].Posterior * hyps[i].Posterior * entries[i].s.relVar
+	}
+	for i := range hyps {
+		p, r := hyps[i].Posterior, entries[i].s.relVar
+		hyps[i].PosteriorMCSE = p * math.Sqrt(math.Max(0, (1-p)*(1-p)*r+s2-p*p*r))
+	}
 	order := make([]int, len(hyps))
 	for i := range order {
 		order[i] = i
@@ -532,15 +587,22 @@ func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Bas
 			cr.Leading = append(cr.Leading, cr.Hypotheses[i].ID)
 		}
 		if err := e.nextMeasurements(ctx, &cr, sorted, leading, pi, prog); err != nil {
-			return nil, nil, err
+			return nil, nil, 0, err
 		}
 		cr.Paths = e.paths(&cr, sorted, leading, pi)
 		cr.Warnings = slices.Clone(e.warnings)
 		out = append(out, cr)
 	}
 	prog.add(4)
+	var worst float64
+	for i := range min(mcseTop, len(joint)) {
+		worst = math.Max(worst, joint[i].PosteriorMCSE)
+	}
+	for k := range out {
+		out[k].Draws = len(e.draws)
+	}
 	if u.series == "" {
-		return out, nil, nil
+		return out, nil, worst, nil
 	}
 	sr := &SeriesResult{Name: u.series, Kind: "years", NoFit: noFit, Warnings: slices.Clone(e.warnings)}
 	for _, p := range e.parts {
@@ -561,7 +623,7 @@ func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Bas
 	}
 	last := out[len(out)-1]
 	sr.Measurements, sr.Leading = last.Measurements, last.Leading
-	return out, sr, nil
+	return out, sr, worst, nil
 }
 
 // steadyWarning says how far from its new steady state the slowest pool

@@ -6,6 +6,7 @@ import (
 
 	"nlens/knowledge"
 	"nlens/rank/study"
+	"nlens/rules"
 )
 
 // The spline carries forward-model predictions from the coarse nodes to the
@@ -57,4 +58,40 @@ func TestSplineAccuracy(t *testing.T) {
 	check([]string{"more-nitrification", "more-nitrate-leaching"}, 0.2)
 	check([]string{"less-mineralization", "source:deposition"}, 0.2)
 	check([]string{"more-nitrate-uptake", "less-mycorrhizal-route"}, 0.2)
+}
+
+// A marginal with two separated bumps is reported as two modes, each with
+// its median inside its own interval; a single bump is one mode. The
+// marginals are constructed here (invented shapes).
+func TestModes(t *testing.T) {
+	t.Parallel()
+	ax := newAxis(rules.PriorLogitUniform, 0.01, 0.95, 15, 121)
+	bump := func(c, w float64) []float64 {
+		m := make([]float64, 121)
+		for i := range m {
+			x := float64(i)
+			m[i] = math.Exp(-0.5 * (x - c) * (x - c) / (w * w))
+		}
+		return m
+	}
+	one := bump(60, 8)
+	if got := modes(one, &ax); got != nil {
+		t.Errorf("one bump gave %d modes", len(got))
+	}
+	two := bump(25, 5)
+	for i, v := range bump(95, 6) {
+		two[i] += v
+	}
+	got := modes(two, &ax)
+	if len(got) != 2 {
+		t.Fatalf("two bumps gave %d modes", len(got))
+	}
+	for _, m := range got {
+		if !(m.Low <= m.Best && m.Best <= m.High) || m.Mass < 0.3 {
+			t.Errorf("mode %+v", m)
+		}
+	}
+	if !(got[0].High < got[1].Low) {
+		t.Errorf("modes overlap: %+v", got)
+	}
 }

@@ -92,6 +92,9 @@ type ComparisonResult struct {
 	Paths []Path
 	// ReplicatesAssumed is the replicate count used for measurement noise.
 	ReplicatesAssumed int
+	// Draws is the number of nuisance draws the ranking finally used
+	// (adaptive, DESIGN §5).
+	Draws int
 	Warnings          []string
 	// NoFit is set when the best hypothesis fails its fit check.
 	NoFit bool
@@ -141,6 +144,9 @@ type Hypothesis struct {
 	Refs      []string
 	Tests     []string
 	Posterior float64
+	// PosteriorMCSE is the Monte Carlo standard error of Posterior from the
+	// finite number of nuisance draws.
+	PosteriorMCSE float64
 	// LogEvidence is the natural log of the marginal likelihood.
 	LogEvidence float64
 	// PriorProb is the prior probability after context rules, normalised
@@ -189,6 +195,17 @@ type Magnitude struct {
 	// Flux is what the magnitude means as a flux at the observation time
 	// (nil where it does not apply).
 	Flux *FluxImplied
+	// Modes holds the two modes of a posterior that has two separated ones
+	// (then Best, Low and High span both and should not be read as one
+	// interval); nil otherwise.
+	Modes []Mode
+}
+
+// Mode is one mode of a two-mode posterior: its median, 90 % interval and
+// the share of the posterior it holds.
+type Mode struct {
+	Best, Low, High float64
+	Mass            float64
 }
 
 // Duration is a pulse's length in years: posterior median, 90 % interval

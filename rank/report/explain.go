@@ -23,6 +23,9 @@ type ExplainJSON struct {
 // ComparisonJSON is one comparison's result.
 type ComparisonJSON struct {
 	Name         string               `json:"name"`
+	Years        *float64             `json:"years"`
+	Series       *string              `json:"series"`
+	Draws        int                  `json:"draws"`
 	Observed     map[string]ShiftJSON `json:"observed"`
 	Treatment    TreatmentJSON        `json:"treatment"`
 	Hypotheses   []HypothesisJSON     `json:"hypotheses"`
@@ -68,6 +71,10 @@ type HypothesisJSON struct {
 	Label     string  `json:"label"`
 	Direction *string `json:"direction"`
 	Posterior float64 `json:"posterior"`
+	// PosteriorMCSE is the Monte Carlo standard error of the posterior.
+	PosteriorMCSE float64 `json:"posterior_mcse"`
+	// Duration is a pulse's length in years (null when sustained).
+	Duration *DurationJSON `json:"duration"`
 	// Magnitude is the first (for a single, the only) magnitude.
 	Magnitude *MagnitudeJSON `json:"magnitude"`
 	// Magnitudes lists every magnitude, in the order of the parts of id
@@ -75,6 +82,15 @@ type HypothesisJSON struct {
 	Magnitudes []MagnitudeJSON        `json:"magnitudes"`
 	Predicted  map[string]MomentsJSON `json:"predicted"`
 	Fit        FitJSON                `json:"fit"`
+}
+
+// DurationJSON is a pulse's length: posterior median and 90 % interval.
+type DurationJSON struct {
+	Best    float64 `json:"best"`
+	Low     float64 `json:"low"`
+	High    float64 `json:"high"`
+	Unit    string  `json:"unit"`
+	AtBound *string `json:"at_bound"`
 }
 
 // MagnitudeJSON is a magnitude's posterior median with its 90 % interval
@@ -92,6 +108,16 @@ type MagnitudeJSON struct {
 	FluxBaseline *float64 `json:"flux_baseline"`
 	Flux         *float64 `json:"flux"`
 	FluxRatio    *float64 `json:"flux_ratio"`
+	// Modes holds the two modes of a two-mode posterior (null otherwise).
+	Modes []ModeJSON `json:"modes"`
+}
+
+// ModeJSON is one mode of a two-mode posterior.
+type ModeJSON struct {
+	Best float64 `json:"best"`
+	Low  float64 `json:"low"`
+	High float64 `json:"high"`
+	Mass float64 `json:"mass"`
 }
 
 // MomentsJSON is a mean and sd.
@@ -139,15 +165,19 @@ func ToJSON(r *rank.Result) ExplainJSON {
 			cj.Observed[o.Observable] = ShiftJSON{round6(o.Shift), round6(o.SE)}
 		}
 		cj.Treatment = treatmentJSON(c.Treatment)
+		cj.Years, cj.Series, cj.Draws = c.Years, nullable(c.Series), c.Draws
 		cj.RuledOut = append([]string{}, c.RuledOut...)
 		for _, h := range c.Hypotheses {
-			hj := HypothesisJSON{ID: h.ID, Label: h.Label, Direction: nullable(h.Direction), Posterior: round6(h.Posterior), Predicted: map[string]MomentsJSON{},
+			hj := HypothesisJSON{ID: h.ID, Label: h.Label, Direction: nullable(h.Direction), Posterior: round6(h.Posterior), PosteriorMCSE: round6(h.PosteriorMCSE), Predicted: map[string]MomentsJSON{},
 				Magnitudes: []MagnitudeJSON{}, Fit: FitJSON{round6(h.Fit.Chi2), h.Fit.DOF, round6(h.Fit.P)}}
 			for _, m := range h.Magnitudes {
 				hj.Magnitudes = append(hj.Magnitudes, magnitudeJSON(m))
 			}
 			if len(hj.Magnitudes) > 0 {
 				hj.Magnitude = &hj.Magnitudes[0]
+			}
+			if d := h.Duration; d != nil {
+				hj.Duration = &DurationJSON{Best: round6(d.Best), Low: round6(d.Low), High: round6(d.High), Unit: "years", AtBound: nullable(d.AtBound)}
 			}
 			for k, m := range h.Predicted {
 				hj.Predicted[k] = MomentsJSON{round6(m.Mean), round6(m.SD)}
@@ -182,6 +212,9 @@ func ptr6(v float64) *float64 {
 func magnitudeJSON(m rank.Magnitude) MagnitudeJSON {
 	mj := MagnitudeJSON{Candidate: m.Candidate, Kind: m.Kind, Baseline: round6(m.Baseline), Best: round6(m.Best), Low: round6(m.Low), High: round6(m.High),
 		Unit: m.Unit, Of: m.Of, AtBound: nullable(m.AtBound)}
+	for _, md := range m.Modes {
+		mj.Modes = append(mj.Modes, ModeJSON{round6(md.Best), round6(md.Low), round6(md.High), round6(md.Mass)})
+	}
 	if f := m.Flux; f != nil {
 		mj.FluxBaseline, mj.Flux = ptr6(f.Baseline), ptr6(f.Median)
 		if f.HasRatio {

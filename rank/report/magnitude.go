@@ -45,6 +45,10 @@ type magnitudeWords struct{ rank.Magnitude }
 // interval prints the 90 % interval, or the open side where it reaches a
 // prior bound: "45–80 %", "≥ 45 %", "≤ 80 %".
 func (m magnitudeWords) interval() string {
+	if len(m.Modes) == 2 {
+		a, b := m.Modes[0], m.Modes[1]
+		return "two modes: " + m.value(a.Best) + " (" + m.value(a.Low) + "–" + m.value(a.High) + ") or " + m.value(b.Best) + " (" + m.value(b.Low) + "–" + m.value(b.High) + ")"
+	}
 	switch m.AtBound {
 	case "high":
 		return "≥ " + m.value(m.Low)
