@@ -94,8 +94,8 @@ type ComparisonResult struct {
 	ReplicatesAssumed int
 	// Draws is the number of nuisance draws the ranking finally used
 	// (adaptive, DESIGN §5).
-	Draws int
-	Warnings          []string
+	Draws    int
+	Warnings []string
 	// NoFit is set when the best hypothesis fails its fit check.
 	NoFit bool
 }
