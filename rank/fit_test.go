@@ -29,7 +29,7 @@ type truthMove struct {
 	eps     float64 // new ε (‰) when from is ""
 }
 
-func truthState(t *testing.T, s *forward.Site, moves []truthMove) (forward.Params, forward.State) {
+func truthState(t testing.TB, s *forward.Site, moves []truthMove) (forward.Params, forward.State) {
 	t.Helper()
 	p := s.Params()
 	for _, m := range moves {
@@ -267,4 +267,41 @@ func TestFitWarnsAndRefuses(t *testing.T) {
 			t.Errorf("%s: got %v, want an error containing %q", tt.name, err, tt.want)
 		}
 	}
+}
+
+// BenchmarkFitSite fits the deciduous template to a control three means
+// away (the demo's control: foliage, soil, soil nitrate) and to twelve
+// means of a moved template.
+func BenchmarkFitSite(b *testing.B) {
+	s, err := forward.LoadSite("temperate-deciduous-forest", knowledge.MustDefault())
+	if err != nil {
+		b.Fatal(err)
+	}
+	demo := []FitTarget{{"foliage", -0.4, 0.33}, {"soil", 3.7, 0.24}, {"soil-nitrate", -9.6, 1.07}}
+	b.Run("three-means", func(b *testing.B) {
+		for b.Loop() {
+			if _, err := FitSite(s, demo, FitOptions{}); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	p, x := truthState(b, s, []truthMove{{process: "nitrification", from: "ammonium", z: 1.5}, {process: "leaching-organic", from: "organic", z: -1.2}, {process: "nitrification", eps: 26}})
+	names := []string{"foliage", "soil", "forest-floor", "soil-ammonium", "soil-nitrate", "fungi", "litter", "n2o", "pool:nitrate", "pool:ammonium", "net:nitrification", "flux:mineralization"}
+	var twelve []FitTarget
+	for _, n := range names {
+		o, _ := s.Observable(n)
+		v := o.Value(&x, &p)
+		se := 0.3
+		if o.LogRatio() {
+			se = 0.05 * v
+		}
+		twelve = append(twelve, FitTarget{n, v, se})
+	}
+	b.Run("twelve-means", func(b *testing.B) {
+		for b.Loop() {
+			if _, err := FitSite(s, twelve, FitOptions{}); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
 }
