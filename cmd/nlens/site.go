@@ -264,6 +264,13 @@ func runSiteFit(e *env, opt siteFitOptions) error {
 	if len(fits) == 0 {
 		return badf("%s: no control group with observed values to fit to", opt.studyPath)
 	}
+	if opt.format == report.FormatYAML && opt.out != "" && len(fits) > 1 {
+		var names []string
+		for _, f := range fits {
+			names = append(names, fmt.Sprintf("%q", f.Comparison))
+		}
+		return badf("%s has %d control groups and a site file holds one site: choose one with --comparison (%s)", opt.studyPath, len(fits), strings.Join(names, ", "))
+	}
 	if opt.format != report.FormatTable {
 		for _, f := range fits {
 			for _, w := range f.Fit.Warnings {

@@ -260,6 +260,7 @@ func TestSiteFit(t *testing.T) {
 		{"unknown comparison", []string{"site", "fit", study, "--comparison", "burned vs control"}, 1, "nlens: " + study + `: no comparison "burned vs control" (comparisons: "limed vs control", "fertilized vs control")` + "\n"},
 		{"bad format", []string{"site", "fit", study, "--format", "markdown"}, 1, "nlens: --format \"markdown\": expected one of yaml, table, json\n"},
 		{"missing study", []string{"site", "fit", filepath.Join(t.TempDir(), "none.yaml")}, 1, ""},
+		{"two controls into one file", []string{"site", "fit", twoControls(t), "-o", filepath.Join(t.TempDir(), "x.yaml")}, 1, ""},
 	}
 	for _, tt := range tests {
 		_, errs, code := runArgs(t, tt.args...)
@@ -267,4 +268,29 @@ func TestSiteFit(t *testing.T) {
 			t.Errorf("%s: got exit %d and %q, want %d and %q", tt.name, code, errs, tt.code, tt.want)
 		}
 	}
+}
+
+// twoControls writes a study with two control groups.
+func twoControls(t *testing.T) string {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "two.yaml")
+	text := `title: Two controls (invented numbers)
+site: {template: temperate-grassland}
+comparisons:
+  - {name: a, control: c1, treatment: t1, years: 2}
+  - {name: b, control: c2, treatment: t2, years: 2}
+groups:
+  c1: {foliage: {mean: 2.0, sd: 0.5, n: 5}}
+  t1: {foliage: {mean: 2.5, sd: 0.5, n: 5}}
+  c2: {foliage: {mean: 1.5, sd: 0.5, n: 5}}
+  t2: {foliage: {mean: 2.9, sd: 0.5, n: 5}}
+`
+	if err := os.WriteFile(path, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, errs, code := runArgs(t, "site", "fit", path)
+	if code != 0 || strings.Count(out, "\nsite: ") != 2 {
+		t.Fatalf("two control groups to standard output: exit %d, %d sites, %s", code, strings.Count(out, "\nsite: "), errs)
+	}
+	return path
 }
