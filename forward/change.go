@@ -148,7 +148,7 @@ func (s *Site) WithRoutes(kb *knowledge.Base, routes ...Route) (*Site, error) {
 		if !ok {
 			return nil, fmt.Errorf("route for unknown process %q", r.Process)
 		}
-		t := Transfer{Process: r.Process, From: from, To: to, Epsilon: eff.EpsilonPermil, D18ORatio: 1}
+		t := Transfer{Process: r.Process, From: from, To: to, Epsilon: eff.EpsilonPermil, D18ORatio: 1, Effect: eff}
 		if eff.D18ORatio != nil {
 			t.D18ORatio = *eff.D18ORatio
 		}

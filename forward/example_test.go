@@ -31,5 +31,5 @@ func ExampleSimulate() {
 	o, _ := site.Observable("soil-nitrate")
 	before, after := o.Value(&sim.Baseline, &sim.Base), o.Value(&sim.Then, &sim.Changed)
 	fmt.Printf("soil nitrate %+.2f ‰ → %+.2f ‰\n", before, after)
-	// Output: soil nitrate -9.29 ‰ → -5.23 ‰
+	// Output: soil nitrate -8.62 ‰ → -5.17 ‰
 }

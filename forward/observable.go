@@ -15,50 +15,85 @@ type Kind int
 // Observable kinds.
 const (
 	KindDelta15 Kind = iota // δ15N of a pool or sum of pools, ‰ AIR
-	KindGas15               // δ15N of the N2O/N2 flux, flux-weighted, ‰ AIR
+	KindFlux15              // δ15N of a flux (emitted N2O, gas, litterfall), flux-weighted over its transfers, ‰ AIR
 	KindSP                  // N2O site preference from the nitrification share, ‰
 	KindDelta18             // δ18O of nitrate, ‰ VSMOW
 	KindPool                // pool size, kg N/ha (shifts as ln ratio)
-	KindFlux                // flux, kg N/ha/yr (shifts as ln ratio)
+	KindFlux                // gross flux, kg N/ha/yr (shifts as ln ratio)
+	KindNet                 // net flux: production minus consumption, kg N/ha/yr (shifts as ln ratio)
 )
 
 // IsotopeNames are the δ observables of DESIGN §3 that every report lists,
 // in display order (pool names come first in simulate output).
-var IsotopeNames = []string{"foliage", "roots", "litter", "soil", "soil-ammonium", "soil-nitrate", "leachate-nitrate", "fungi", "n2o", "nitrate-d18o", "ecosystem"}
+var IsotopeNames = []string{"foliage", "roots", "litter", "forest-floor", "soil", "soil-ammonium", "soil-nitrate", "leachate-nitrate", "fungi", "n2o", "nitrate-d18o", "ecosystem"}
 
-// gasProcesses produce the N2O/N2 flux.
+// RateNames are the observables of DESIGN §3 that are rates or amounts
+// without a pool or process in their name: net rates and foliar N.
+var RateNames = []string{"net:mineralization", "net:nitrification", "foliage-n"}
+
+// gasProcesses produce N2O (and N2 where the site has no n2o pool).
 var gasProcesses = []string{"nitrifier-gas", "denitrification"}
+
+// Net rates (DESIGN §3): gross production minus the consumption that a
+// field incubation of soil (a sealed core or bag, no plants, no leaching)
+// also sees, namely microbial immobilization. Net mineralization is the
+// change of NH4+ plus NO3− in the incubation: mineralization (from mineral
+// soil and forest floor) − immobilization-ammonium − immobilization-nitrate.
+// Net nitrification is the change of NO3−: nitrification −
+// immobilization-nitrate. Plant and mycorrhizal uptake, leaching and gas
+// losses are excluded, as in the incubation (Stark & Hart 1997; Booth et
+// al. 2005 for the net:gross contrast). Both are compared as log-ratios,
+// so they are undefined where the net rate is not positive; every built-in
+// template has positive net rates (forward/template_test.go).
+var netTerms = map[string][]netTerm{
+	"net:mineralization": {{"mineralization", 1}, {"immobilization-ammonium", -1}, {"immobilization-nitrate", -1}},
+	"net:nitrification":  {{"nitrification", 1}, {"immobilization-nitrate", -1}},
+}
+
+type netTerm struct {
+	process string
+	sign    float64
+}
 
 // Observable is a quantity the model predicts for a site, bound to the
 // site's pools and transfers.
 type Observable struct {
 	Name      string
 	Kind      Kind
-	pools     []int // pools summed (δ, pool size)
-	transfers []int // transfers summed (fluxes, gas)
-	donors    []int // donor pool of each of transfers
-	nitGas    []int // for KindSP: which of transfers are nitrifier-gas
+	pools     []int     // pools summed (δ, pool size)
+	transfers []int     // transfers summed (fluxes, gas, litterfall)
+	donors    []int     // donor pool of each of transfers
+	signs     []float64 // for KindNet: +1 production, −1 consumption, per transfer
+	nitGas    []int     // for KindSP: which of transfers are nitrifier-gas
 }
 
 // LogRatio reports whether shifts of the observable are ln(treatment/control)
 // rather than differences in ‰.
-func (o Observable) LogRatio() bool { return o.Kind == KindPool || o.Kind == KindFlux }
+func (o Observable) LogRatio() bool {
+	return o.Kind == KindPool || o.Kind == KindFlux || o.Kind == KindNet
+}
 
 // Unit is the observable's unit as printed.
 func (o Observable) Unit() string {
 	switch o.Kind {
 	case KindPool:
 		return "kg N/ha"
-	case KindFlux:
+	case KindFlux, KindNet:
 		return "kg N/ha/yr"
 	}
 	return "‰"
 }
 
 // Observable binds a name to the site. Names: the pool names; foliage,
-// roots, litter, soil, soil-ammonium, soil-nitrate, leachate-nitrate, fungi,
-// n2o, n2o-sp, nitrate-d18o, ecosystem; pool:<name>; flux:<process> and
-// flux:n2o (the gaseous flux of nitrifier-gas and denitrification).
+// roots, litter (the litterfall flux), forest-floor, soil (mineral soil:
+// organic, ammonium and nitrate), soil-ammonium, soil-nitrate,
+// leachate-nitrate, fungi, n2o (emitted N2O), n2o-sp, nitrate-d18o,
+// ecosystem; pool:<name>; flux:<process>; flux:n2o (emitted N2O, or where
+// the site has no n2o pool the gaseous flux of nitrifier-gas and
+// denitrification); net:mineralization and net:nitrification (see
+// netTerms); foliage-n (foliar N as the foliage pool, or the plant pool
+// where the site has no foliage; the biomass is assumed unchanged, so its
+// log-ratio is that of the N concentration).
 func (s *Site) Observable(name string) (Observable, error) {
 	o := Observable{Name: name}
 	pool := func(p string) (int, error) {
@@ -72,6 +107,27 @@ func (s *Site) Observable(name string) (Observable, error) {
 		i, err := pool(p)
 		o.pools = []int{i}
 		return o, err
+	}
+	// flux collects the transfers of a process with a non-zero rate.
+	flux := func(proc string) {
+		for j, t := range s.Transfers {
+			if t.Process == proc && t.RateKgPerHaYr > 0 {
+				o.transfers = append(o.transfers, j)
+				o.donors = append(o.donors, t.From)
+			}
+		}
+	}
+	// emitted binds the n2o-emission flux of a site with an n2o pool; it
+	// reports false for a site without one.
+	emitted := func() (bool, error) {
+		if s.PoolIndex("n2o") < 0 {
+			return false, nil
+		}
+		flux("n2o-emission")
+		if len(o.transfers) == 0 {
+			return true, fmt.Errorf("observable %q needs an n2o-emission transfer from the n2o pool, which site %q does not have", name, s.ID)
+		}
+		return true, nil
 	}
 	gas := func() error {
 		for j, t := range s.Transfers {
@@ -94,10 +150,23 @@ func (s *Site) Observable(name string) (Observable, error) {
 			return one("foliage")
 		}
 		return one("plant")
+	case name == "n2o":
+		o.Kind = KindFlux15
+		if ok, err := emitted(); ok {
+			return o, err
+		}
+		return o, gas()
 	case slices.Contains(PoolNames, name):
 		return one(name)
-	case name == "roots" || name == "litter":
+	case name == "roots":
 		return one("plant")
+	case name == "litter":
+		o.Kind = KindFlux15
+		flux("litterfall")
+		if len(o.transfers) == 0 {
+			return o, fmt.Errorf("observable %q needs a litterfall transfer, which site %q does not have", name, s.ID)
+		}
+		return o, nil
 	case name == "soil-ammonium":
 		return one("ammonium")
 	case name == "soil-nitrate" || name == "leachate-nitrate":
@@ -113,14 +182,30 @@ func (s *Site) Observable(name string) (Observable, error) {
 			o.pools = append(o.pools, i)
 		}
 		return o, nil
-	case name == "n2o":
-		o.Kind = KindGas15
-		return o, gas()
 	case name == "n2o-sp":
 		o.Kind = KindSP
 		return o, gas()
 	case name == "nitrate-d18o":
 		o.Kind = KindDelta18
+		return o, nil
+	case name == "foliage-n":
+		o.Kind = KindPool
+		if s.PoolIndex("foliage") >= 0 {
+			return one("foliage")
+		}
+		return one("plant")
+	case netTerms[name] != nil:
+		o.Kind = KindNet
+		for k, term := range netTerms[name] {
+			n := len(o.transfers)
+			flux(term.process)
+			if k == 0 && len(o.transfers) == 0 {
+				return o, fmt.Errorf("observable %q needs a %s transfer, which site %q does not have", name, term.process, s.ID)
+			}
+			for range len(o.transfers) - n {
+				o.signs = append(o.signs, term.sign)
+			}
+		}
 		return o, nil
 	case strings.HasPrefix(name, "pool:"):
 		o.Kind = KindPool
@@ -131,6 +216,9 @@ func (s *Site) Observable(name string) (Observable, error) {
 		o.Kind = KindFlux
 		proc := strings.TrimPrefix(name, "flux:")
 		if proc == "n2o" {
+			if ok, err := emitted(); ok {
+				return o, err
+			}
 			return o, gas()
 		}
 		for j, t := range s.Transfers {
@@ -144,19 +232,19 @@ func (s *Site) Observable(name string) (Observable, error) {
 		}
 		return o, nil
 	}
-	return o, fmt.Errorf("unknown observable %q (observables: %s, n2o-sp, pool:<pool>, flux:<process>)", name, strings.Join(IsotopeNames, ", "))
+	return o, fmt.Errorf("unknown observable %q (observables: %s, n2o-sp, %s, pool:<pool>, flux:<process>)", name, strings.Join(IsotopeNames, ", "), strings.Join(RateNames, ", "))
 }
 
 // LogRatioName reports whether shifts of the named observable are compared
-// as ln(treatment/control): pool sizes and fluxes.
+// as ln(treatment/control): pool sizes, fluxes, net rates and foliar N.
 func LogRatioName(name string) bool {
-	return strings.HasPrefix(name, "pool:") || strings.HasPrefix(name, "flux:")
+	return strings.HasPrefix(name, "pool:") || strings.HasPrefix(name, "flux:") || strings.HasPrefix(name, "net:") || name == "foliage-n"
 }
 
 // KnownObservable reports whether name is an observable of some site
 // (without binding it to one).
 func KnownObservable(name string) bool {
-	if slices.Contains(PoolNames, name) || slices.Contains(IsotopeNames, name) || name == "n2o-sp" {
+	if slices.Contains(PoolNames, name) || slices.Contains(IsotopeNames, name) || slices.Contains(RateNames, name) || name == "n2o-sp" {
 		return true
 	}
 	if p, ok := strings.CutPrefix(name, "pool:"); ok {
@@ -187,13 +275,21 @@ func (o Observable) Value(x *State, p *Params) float64 {
 		}
 		return Delta(x.O18/x.O16, RVSMOW)
 	}
+	if o.Kind == KindNet {
+		var net float64
+		for i, j := range o.transfers {
+			d := o.donors[i]
+			net += o.signs[i] * (p.K[j]*x.N14[d] + p.K[j]/Alpha(p.Eps15[j])*x.N15[d])
+		}
+		return net
+	}
 	var f14, f15 float64
 	for i, j := range o.transfers {
 		f14 += p.K[j] * x.N14[o.donors[i]]
 		f15 += p.K[j] / Alpha(p.Eps15[j]) * x.N15[o.donors[i]]
 	}
 	switch o.Kind {
-	case KindGas15:
+	case KindFlux15:
 		return Delta(f15/f14, RAir)
 	case KindSP:
 		var nit float64
@@ -233,5 +329,5 @@ func (s *Site) DeltaNames() []string {
 // Same reports whether two observables measure the same quantity (for
 // example soil-nitrate and leachate-nitrate are both the nitrate pool's δ).
 func (o Observable) Same(x Observable) bool {
-	return o.Kind == x.Kind && slices.Equal(o.pools, x.pools) && slices.Equal(o.transfers, x.transfers)
+	return o.Kind == x.Kind && slices.Equal(o.pools, x.pools) && slices.Equal(o.transfers, x.transfers) && slices.Equal(o.signs, x.signs)
 }

@@ -12,8 +12,12 @@ import (
 )
 
 // PoolNames lists the pools a site may define, in the fixed order used for
-// state vectors and output. organic, ammonium, nitrate and plant are required.
-var PoolNames = []string{"organic", "ammonium", "nitrate", "plant", "fungi", "foliage"}
+// state vectors and output. organic, ammonium, nitrate and plant are
+// required. organic is the mineral soil's organic N; forest-floor is the
+// organic layer above it (litter, Oe and Oa horizons); n2o is the soil
+// N2O between its production (nitrifier-gas, denitrification) and its
+// reduction to N2 or emission.
+var PoolNames = []string{"organic", "ammonium", "nitrate", "plant", "fungi", "foliage", "forest-floor", "n2o"}
 
 var requiredPools = []string{"organic", "ammonium", "nitrate", "plant"}
 
@@ -60,6 +64,13 @@ type Site struct {
 	References  []string
 	Note        string
 	File        string
+	// MycorrhizalType is the mycorrhizal association of the dominant
+	// plants (one of knowledge.MycorrhizalTypes, or "" when the file does
+	// not say); it sets the ε of mycorrhizal-transfer (DESIGN §3).
+	MycorrhizalType string
+	// LandUse is one of knowledge.LandUses, or "" when the file does not
+	// say.
+	LandUse string
 	// Pools present, in PoolNames order, with the file's baseline sizes.
 	Pools     []string
 	PoolKg    []float64
@@ -69,11 +80,7 @@ type Site struct {
 	// nitrification; Fixed when the file gives it.
 	NitrificationD18O      float64
 	NitrificationD18OFixed bool
-	// MycorrhizalType and LandUse are the site's defaults for the study
-	// context (DESIGN §3, §6).
-	MycorrhizalType string
-	LandUse         string
-	Warnings        []string
+	Warnings               []string
 }
 
 // Input is N entering a pool from outside at a fixed rate.
@@ -103,6 +110,13 @@ type Transfer struct {
 	D18ORatio float64
 	// Spread is the relative sd of the rate for uncertainty draws.
 	Spread float64
+	// Effect is the knowledge entry behind the transfer's ε: its typical
+	// value, the range and distribution for uncertainty draws, references
+	// and status. For mycorrhizal-transfer it is the site's mycorrhizal
+	// type's fungal physiology (knowledge.Base.MycorrhizalEffect). When
+	// EpsilonFixed is set the file's value is used instead of the typical
+	// one.
+	Effect knowledge.Effect
 	Line   int
 }
 
@@ -111,12 +125,14 @@ func (s *Site) PoolIndex(name string) int { return slices.Index(s.Pools, name) }
 
 // site file layout (DESIGN §3), decoded strictly.
 type siteFile struct {
-	Site          string              `yaml:"site"`
-	Description   string              `yaml:"description"`
-	References    []string            `yaml:"references"`
-	Note          string              `yaml:"note"`
-	Pools         map[string]*float64 `yaml:"pools"`
-	NitrateOxygen *struct {
+	Site            string              `yaml:"site"`
+	Description     string              `yaml:"description"`
+	References      []string            `yaml:"references"`
+	Note            string              `yaml:"note"`
+	MycorrhizalType string              `yaml:"mycorrhizal_type"`
+	LandUse         string              `yaml:"land_use"`
+	Pools           map[string]*float64 `yaml:"pools"`
+	NitrateOxygen   *struct {
 		NitrificationD18O *float64 `yaml:"nitrification_d18o"`
 	} `yaml:"nitrate_oxygen"`
 	Inputs    []inputEntry    `yaml:"inputs"`
@@ -169,9 +185,15 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (site *Site, err er
 	bad := func(field string, path []any, format string, args ...any) {
 		errs = append(errs, doc.Errorf(field, path, format, args...))
 	}
-	s := &Site{ID: f.Site, Description: f.Description, References: f.References, Note: f.Note, File: file}
+	s := &Site{ID: f.Site, Description: f.Description, References: f.References, Note: f.Note, File: file, MycorrhizalType: f.MycorrhizalType, LandUse: f.LandUse}
 	if s.ID == "" {
 		bad("site", []any{"site"}, "missing site id")
+	}
+	if f.MycorrhizalType != "" && !slices.Contains(knowledge.MycorrhizalTypes, f.MycorrhizalType) {
+		bad("mycorrhizal_type", []any{"mycorrhizal_type"}, "unknown mycorrhizal type %q (types: %s)", f.MycorrhizalType, strings.Join(knowledge.MycorrhizalTypes, ", "))
+	}
+	if f.LandUse != "" && !slices.Contains(knowledge.LandUses, f.LandUse) {
+		bad("land_use", []any{"land_use"}, "unknown land use %q (land uses: %s)", f.LandUse, strings.Join(knowledge.LandUses, ", "))
 	}
 	for _, k := range f.References {
 		if _, ok := kb.Reference(k); !ok {
@@ -206,6 +228,9 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (site *Site, err er
 		}
 		s.Pools = append(s.Pools, name)
 		s.PoolKg = append(s.PoolKg, *v)
+	}
+	if f.MycorrhizalType == "none" && s.PoolIndex("fungi") >= 0 {
+		bad("pools.fungi", []any{"pools", "fungi"}, "the site's mycorrhizal_type is none, but it has a pool of mycorrhizal fungi")
 	}
 	// Nitrate oxygen.
 	s.NitrificationD18O = kb.NitrateOxygen.NitrificationD18OPermil
@@ -299,13 +324,20 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (site *Site, err er
 		path := func(k string) []any { return []any{"transfers", i, k} }
 		t := Transfer{Process: e.Process, Line: doc.Line("transfers", i)}
 		eff, ok := kb.Effect(e.Process)
-		if !ok {
-			if e.Process == "" {
-				bad(field("process"), []any{"transfers", i}, "missing process")
-			} else {
-				bad(field("process"), path("process"), "unknown process %q (processes: %s)", e.Process, strings.Join(knowledge.Processes, ", "))
+		switch {
+		case !ok && e.Process == "":
+			bad(field("process"), []any{"transfers", i}, "missing process")
+		case !ok:
+			bad(field("process"), path("process"), "unknown process %q (processes: %s)", e.Process, strings.Join(knowledge.Processes, ", "))
+		case slices.Contains(knowledge.InputProcesses, e.Process):
+			bad(field("process"), path("process"), "%s brings N from outside the site: give it as an input, for example {source: biological-fixation, rate: 2}, not as a transfer", e.Process)
+		case e.Process == "mycorrhizal-transfer":
+			if s.MycorrhizalType == "none" {
+				bad(field("process"), path("process"), "the site's mycorrhizal_type is none, but this transfer passes fungal N to a host (give the type of the fungi, or remove the fungal transfers)")
 			}
+			eff = kb.MycorrhizalEffect(s.MycorrhizalType)
 		}
+		t.Effect = eff
 		t.From = pool(e.From, field("from"), path("from"), false)
 		t.To = pool(e.To, field("to"), path("to"), true)
 		if t.From >= 0 && t.From == t.To {

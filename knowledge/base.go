@@ -25,15 +25,19 @@ const (
 type Base struct {
 	Effects       []Effect
 	NitrateOxygen NitrateOxygen
-	Sources       []Source
-	Forcings      Forcings
-	Measurements  []Measurement
-	References    []Reference
+	// MycorrhizalTypes holds the fungal transfer effect of each
+	// mycorrhizal type (effects.yaml, mycorrhizal_types).
+	MycorrhizalTypes []FungalPhysiology
+	Sources          []Source
+	Forcings         Forcings
+	Measurements     []Measurement
+	References       []Reference
 	// Sites maps a template id to its YAML text and embedded file name; the
 	// site format is parsed by package forward.
 	sites map[string]SiteFile
 
 	effectByID map[string]int
+	fungal     map[string]FungalPhysiology
 	sourceByID map[string]int
 	measByID   map[string]int
 	refByKey   map[string]int
@@ -208,6 +212,9 @@ func (b *Base) citations() []citing {
 		out = append(out, citing{"effects.yaml", e.Line, e.ID + ".refs", e.Refs})
 	}
 	out = append(out, citing{"effects.yaml", b.NitrateOxygen.Line, "nitrate_oxygen.refs", b.NitrateOxygen.Refs})
+	for _, fp := range b.MycorrhizalTypes {
+		out = append(out, citing{"effects.yaml", fp.Line, "mycorrhizal_types." + fp.Type + ".refs", fp.Refs})
+	}
 	for _, s := range b.Sources {
 		out = append(out, citing{"sources.yaml", s.Line, s.ID + ".refs", s.Refs})
 	}

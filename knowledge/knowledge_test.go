@@ -63,12 +63,12 @@ func TestEffectsWithinRulesOfThumb(t *testing.T) {
 		"immobilization-nitrate":  {-1, 1.6},
 		"volatilization":          {19, 30},
 	}
-	// The one exception: animals retain 15N (tissue about +3 ‰ over diet,
-	// Minagawa & Wada 1984, from memory), so N leaving in animal product is
-	// enriched and its ε is negative.
-	enrichedProduct := map[string]bool{"grazing-export": true}
+	// Inverse effects the trade knows of (the product is enriched): animal
+	// product is about 3 ‰ above the diet (DeNiro & Epstein 1981, from
+	// memory), so N exported in it leaves the pasture depleted.
+	inverse := map[string]bool{"grazing-export": true}
 	for _, e := range b.Effects {
-		if e.EpsilonPermil < 0 && !enrichedProduct[e.ID] {
+		if e.EpsilonPermil < 0 && !inverse[e.ID] {
 			t.Errorf("%s: typical ε %g < 0 would leave the substrate depleted", e.ID, e.EpsilonPermil)
 		}
 		if r, ok := within[e.ID]; ok {
@@ -204,6 +204,11 @@ func TestBadKnowledgeFiles(t *testing.T) {
 		{"unknown process", "effects.yaml", "  - id: mineralization\n", "  - id: mineralisation\n", `unknown process "mineralisation"`},
 		{"bad number", "measurements.yaml", "    analytical_sd: 0.2\n", "    analytical_sd: low\n", `measurements.yaml:16: measurements[0].analytical_sd: expected a number, got "low"`},
 		{"missing reference", "sources.yaml", "refs: [bateman2007, usgs-nitrogen]", "refs: [bateman2007, nobody1999]", `reference "nobody1999" is not in references.yaml`},
+		{"mixed type without a model", "effects.yaml", "    models: ecto\n", "", `mycorrhizal_types[3].models: a mixed type names the type its fungal pool models`},
+		{"unknown mycorrhizal type", "effects.yaml", "  - type: ericoid\n", "  - type: orchid\n", `mycorrhizal_types[1].type: expected ecto, ericoid, arbuscular or mixed, got "orchid"`},
+		{"missing mycorrhizal type", "effects.yaml", "  - type: ericoid\n", "  - type: ecto\n", `mycorrhizal type "ericoid" has no fungal transfer effect`},
+		{"fungal range outside", "effects.yaml", "    epsilon: 1\n    range: [0, 3]\n", "    epsilon: 1\n    range: [2, 3]\n", "mycorrhizal_types[2].range: typical value 1 lies outside [2, 3]"},
+		{"measurement mycorrhizal type", "measurements.yaml", "mycorrhizal_types: [ecto, ericoid, mixed]", "mycorrhizal_types: [ecto, orchid]", `unknown mycorrhizal type "orchid"`},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {

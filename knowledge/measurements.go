@@ -3,6 +3,8 @@ package knowledge
 import (
 	"fmt"
 	"io/fs"
+	"slices"
+	"strings"
 )
 
 // Units of a measurement.
@@ -22,13 +24,17 @@ type Measurement struct {
 	// AnalyticalSD is the instrument and preparation repeatability.
 	AnalyticalSD float64 `yaml:"analytical_sd" json:"analytical_sd"`
 	// FieldSD is the typical spread between replicate plots of one treatment.
-	FieldSD float64  `yaml:"field_sd" json:"field_sd"`
-	Cost    int      `yaml:"cost" json:"cost"` // 1 low, 2 moderate, 3 high
-	Method  string   `yaml:"method" json:"method,omitempty"`
-	Note    string   `yaml:"note" json:"note,omitempty"`
-	Refs    []string `yaml:"refs" json:"refs,omitempty"`
-	Status  string   `yaml:"status" json:"status,omitempty"`
-	Line    int      `yaml:"-" json:"-"`
+	FieldSD float64 `yaml:"field_sd" json:"field_sd"`
+	Cost    int     `yaml:"cost" json:"cost"` // 1 low, 2 moderate, 3 high
+	Method  string  `yaml:"method" json:"method,omitempty"`
+	// MycorrhizalTypes, when given, limits the measurement to sites whose
+	// mycorrhizal_type is one of them (sporocarps exist only where the
+	// fungi fruit above ground).
+	MycorrhizalTypes []string `yaml:"mycorrhizal_types" json:"mycorrhizal_types,omitempty"`
+	Note             string   `yaml:"note" json:"note,omitempty"`
+	Refs             []string `yaml:"refs" json:"refs,omitempty"`
+	Status           string   `yaml:"status" json:"status,omitempty"`
+	Line             int      `yaml:"-" json:"-"`
 }
 
 // CostLabel names a cost tier.
@@ -92,6 +98,11 @@ func (b *Base) loadMeasurements(fsys fs.FS) error {
 		}
 		if !checkStatus(m.Status) {
 			at("status", "unknown status %q", m.Status)
+		}
+		for _, t := range m.MycorrhizalTypes {
+			if !slices.Contains(MycorrhizalTypes, t) {
+				at("mycorrhizal_types", "unknown mycorrhizal type %q (types: %s)", t, strings.Join(MycorrhizalTypes, ", "))
+			}
 		}
 	}
 	b.Measurements = f.Measurements

@@ -81,8 +81,6 @@ func (c SourceContexts) Empty() bool {
 	return !c.Anywhere && len(c.LandUse) == 0 && len(c.Nearby) == 0 && len(c.Management) == 0
 }
 
-// LandUses are the values of a study's site.land_use (DESIGN §6).
-var LandUses = []string{"forest", "grassland", "cropland", "pasture", "wetland", "dryland", "urban"}
 
 // NearbyKinds are the values of a study's site.nearby (DESIGN §6).
 var NearbyKinds = []string{"cropland", "pasture", "livestock", "settlement", "septic", "road", "industry"}

@@ -80,7 +80,8 @@ func (s *stratified) uniform() float64 {
 	return math.Min(math.Max(us[s.i], 1e-12), 1-1e-12)
 }
 
-// makeDraws returns n nuisance draws; draw 0 is the nominal site with the
+// makeDraws returns the nuisance draws from to to (exclusive); draw 0 is
+// the nominal site with the
 // treatment at its typical sizes. Every ε the site file does not fix is
 // drawn from its knowledge distribution (ε18 from its ε15 times a ratio
 // drawn from the knowledge ratio range); rates with a spread are multiplied
@@ -90,9 +91,10 @@ func (s *stratified) uniform() float64 {
 // uptake reductions and their recovery time, unmeasured δ of additions)
 // from its triangular range, and a fire's severity, when the
 // study does not give it, uniformly from low, moderate and high.
-func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, n int, lhs *stratified) ([]draw, error) {
-	out := make([]draw, n)
-	for d := range out {
+func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, from, to int, lhs *stratified) ([]draw, error) {
+	out := make([]draw, to-from)
+	for k := range out {
+		d := from + k
 		if d > 0 {
 			lhs.startDraw(d)
 		}
@@ -113,7 +115,7 @@ func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, 
 		}
 		if d > 0 {
 			for j, t := range site.Transfers {
-				eff, _ := kb.Effect(t.Process)
+				eff := t.Effect
 				if !t.EpsilonFixed {
 					p.Eps15[j] = sampleWithin(eff.Distribution, eff.RangePermil[0], eff.RangePermil[1], eff.EpsilonPermil, lhs.uniform())
 				}
@@ -181,7 +183,7 @@ func makeDraws(site *forward.Site, kb *knowledge.Base, trs []forward.Treatment, 
 			dr.forcing = append(dr.forcing, c)
 		}
 		dr.params = p
-		out[d] = dr
+		out[k] = dr
 	}
 	return out, nil
 }

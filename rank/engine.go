@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"sync"
 
 	"nlens/forward"
 	"nlens/knowledge"
@@ -91,6 +92,21 @@ type engine struct {
 	treated bool
 	// stream seeds this unit's random streams.
 	stream uint64
+	// fit is the site fitted to the controls (nil when not fitted).
+	fit *SiteFit
+	// trs are the parts' treatments and lhs the stratified design the
+	// draws come from (kept so that grow can add draws).
+	trs []forward.Treatment
+	lhs *stratified
+	// rawLogW are the draws' log-likelihoods of the control levels, before
+	// tempering; the closest draw's worst mismatch is kept for a warning.
+	rawLogW                 []float64
+	bestMismatch, worstDiff float64
+	worstName               string
+	// cache holds coarse predictions by hypothesis id across rounds of
+	// draws (guarded by cacheMu: hypotheses are scored in parallel).
+	cacheMu sync.Mutex
+	cache   map[string]*coarseCache
 	// observed observables of every part, their shifts and variances.
 	obs      []forward.Observable
 	observed []study.Observed
@@ -114,7 +130,7 @@ func (e *engine) siteIsCertain() bool {
 	}
 	s := e.site
 	for _, t := range s.Transfers {
-		eff, _ := e.kb.Effect(t.Process)
+		eff := t.Effect
 		if t.Spread > 0 || (!t.EpsilonFixed && eff.RangePermil[1] > eff.RangePermil[0]) {
 			return false
 		}
@@ -359,25 +375,51 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 		trs = append(trs, pt.tr)
 	}
 	e.stream = seedStream
-	var err error
-	e.draws, err = makeDraws(e.site, e.kb, trs, e.opt.Draws, newStratified(e.opt.Seed, seedStream, e.opt.FirstDraws))
+	e.trs = trs
+	e.lhs = newStratified(e.opt.Seed, seedStream, e.opt.FirstDraws)
+	if err := e.grow(w, e.opt.Draws); err != nil {
+		return err
+	}
+	// The closest draw's worst mismatch with the control, over the first
+	// draws (more draws only refine it).
+	if e.bestMismatch > 3 {
+		unit := "‰"
+		if forward.LogRatioName(e.worstName) {
+			unit = " (ln ratio)"
+		}
+		e.warnf("the control's absolute %s differs from the %s site model by %+.1f%s even in the closest draw: the model is used for shifts, but its baseline is not this site's; consider a site file fitted to it", e.worstName, e.site.ID, e.worstDiff, unit)
+	}
+	for _, p := range e.site.Warnings {
+		e.warnf("%s", p)
+	}
+	return nil
+}
+
+// grow extends the draws to n: the new draws, their baselines and baseline
+// values, and the weights of all draws (the tempering depends on all).
+func (e *engine) grow(w *worker, n int) error {
+	from := len(e.draws)
+	if n <= from {
+		return nil
+	}
+	ds, err := makeDraws(e.site, e.kb, e.trs, from, n, e.lhs)
 	if err != nil {
 		return err
 	}
-	n := len(e.draws)
-	e.base = make([]forward.State, n)
-	e.baseVals = make([][]float64, n)
-	logw := make([]float64, n)
-	bestMismatch := math.Inf(1)
-	var worstName string
-	var worstDiff float64
-	for d := range e.draws {
+	e.draws = append(e.draws, ds...)
+	e.base = append(e.base, make([]forward.State, n-from)...)
+	e.baseVals = append(e.baseVals, make([][]float64, n-from)...)
+	e.rawLogW = append(e.rawLogW, make([]float64, n-from)...)
+	if from == 0 {
+		e.bestMismatch = math.Inf(1)
+	}
+	for d := from; d < n; d++ {
 		p := &e.draws[d].params
 		if err := w.model.Steady(p, true, &e.base[d]); err != nil {
 			if d == 0 {
 				return err
 			}
-			logw[d] = math.Inf(-1)
+			e.rawLogW[d] = math.Inf(-1)
 			e.baseVals[d] = make([]float64, len(e.obs))
 			continue
 		}
@@ -399,30 +441,20 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 			if math.IsNaN(z) {
 				z = math.Inf(1)
 			}
-			logw[d] -= 0.5 * z * z
+			e.rawLogW[d] -= 0.5 * z * z
 			if math.Abs(z) > mismatch {
 				mismatch, name, diff = math.Abs(z), o.Name, c.Mean-vals[i]
 			}
 		}
 		e.baseVals[d] = vals
-		if mismatch < bestMismatch {
-			bestMismatch, worstName, worstDiff = mismatch, name, diff
+		if mismatch < e.bestMismatch {
+			e.bestMismatch, e.worstName, e.worstDiff = mismatch, name, diff
 		}
 	}
 	e.siteCertain = e.siteIsCertain()
 	e.logw = make([]float64, n)
-	for d, v := range drawWeights(logw) {
+	for d, v := range drawWeights(e.rawLogW) {
 		e.logw[d] = math.Log(v)
-	}
-	if bestMismatch > 3 {
-		unit := "‰"
-		if forward.LogRatioName(worstName) {
-			unit = " (ln ratio)"
-		}
-		e.warnf("the control's absolute %s differs from the %s site model by %+.1f%s even in the closest draw: the model is used for shifts, but its baseline is not this site's; consider a site file fitted to it", worstName, e.site.ID, worstDiff, unit)
-	}
-	for _, p := range e.site.Warnings {
-		e.warnf("%s", p)
 	}
 	return nil
 }

@@ -80,6 +80,16 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 		nCoarse *= v
 	}
 	coarse := make([]float64, nCoarse*nd*no)
+	// Draws scored in an earlier round keep their predictions.
+	done := 0
+	e.cacheMu.Lock()
+	if cc, ok := e.cache[id]; ok && cc.nCoarse == nCoarse && cc.nd <= nd {
+		done = cc.nd
+		for c := range nCoarse {
+			copy(coarse[c*nd*no:(c*nd+done)*no], cc.data[c*done*no:(c+1)*done*no])
+		}
+	}
+	e.cacheMu.Unlock()
 	theta := make([]float64, len(knobs))
 	for c := range nCoarse {
 		rem := c
@@ -87,13 +97,26 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 			theta[a] = knobs[a].ax.nodes[rem%s.nc[a]]
 			rem /= s.nc[a]
 		}
-		for d := range nd {
+		for d := done; d < nd; d++ {
 			e.predict(w, d, knobs, theta, coarse[(c*nd+d)*no:(c*nd+d+1)*no])
 		}
 	}
+	e.cacheMu.Lock()
+	if e.cache == nil {
+		e.cache = map[string]*coarseCache{}
+	}
+	e.cache[id] = &coarseCache{nCoarse: nCoarse, nd: nd, data: slices.Clone(coarse)}
+	e.cacheMu.Unlock()
 	s.pred = interpolate(coarse, knobs, s.nc, s.nf, nd*no)
 	s.likelihood(e, none)
 	return s
+}
+
+// coarseCache holds one hypothesis's coarse predictions for its first nd
+// draws, laid out [(c·nd + d)·no + o].
+type coarseCache struct {
+	nCoarse, nd int
+	data        []float64
 }
 
 // interpolate carries coarse predictions (blocks of size blk per node) to

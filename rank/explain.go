@@ -2,6 +2,7 @@ package rank
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"runtime"
@@ -25,6 +26,9 @@ type Options struct {
 	ModelError float64
 	// Workers bounds the goroutines; 0 means GOMAXPROCS.
 	Workers int
+	// NoSiteFit keeps the nominal site instead of fitting it to the
+	// control's absolute values (DESIGN §5).
+	NoSiteFit bool
 	// MaxDraws bounds the adaptive draws (0: DefaultMaxDraws); FixedDraws
 	// turns the adaptation off (Draws are used as given). FirstDraws is set
 	// by Explain to the first round's draws (the design's first block).
@@ -269,16 +273,41 @@ func newEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt 
 		trs = append(trs, st.Comparisons[i].Declared())
 		cmps = append(cmps, st.Comparisons[i])
 	}
+	nominal, fit := st.Site, (*SiteFit)(nil)
+	var fitWarn []string
+	if !opt.NoSiteFit {
+		var targets []FitTarget
+		for _, c := range cmps {
+			for _, o := range c.Observed {
+				if !o.NoLevels() {
+					targets = append(targets, FitTarget{Observable: o.Observable, Mean: o.Control.Mean, SE: o.Control.SE()})
+				}
+			}
+		}
+		if len(targets) > 0 {
+			f, err := FitSite(st.Site, targets, FitOptions{})
+			switch {
+			case err == nil:
+				nominal, fit = f.Site, f
+				fitWarn = f.Warnings
+			case !errors.Is(err, ErrNothingToFit):
+				fitWarn = append(fitWarn, fmt.Sprintf("the site model could not be fitted to the control (%v); the nominal site is used", err))
+			}
+		}
+	}
 	var rs []forward.Route
 	for _, tr := range trs {
-		rs = append(rs, routes(st.Site, kb, set, tr)...)
+		rs = append(rs, routes(nominal, kb, set, tr)...)
 	}
-	site, err := st.Site.WithRoutes(kb, rs...)
+	site, err := nominal.WithRoutes(kb, rs...)
 	if err != nil {
 		return nil, err
 	}
 	first := &st.Comparisons[u.idx[0]]
-	e := &engine{site: site, kb: kb, set: set, opt: opt, ctx: st.ContextFor(first, kb)}
+	e := &engine{site: site, kb: kb, set: set, opt: opt, ctx: st.ContextFor(first, kb), fit: fit}
+	for _, w := range fitWarn {
+		e.warnf("%s", w)
+	}
 	scale := []float64{1}
 	if u.series != "" {
 		scale = study.DoseScale(cmps)
@@ -320,38 +349,58 @@ const (
 )
 
 // explainUnit explains a unit with as many draws as its top posteriors
-// need (DESIGN §5): the first draws of a larger run are those of the
-// smaller one, so each doubling only adds draws.
+// need (DESIGN §5): the draws double until the Monte Carlo error of the top
+// posteriors is below mcseTarget or Options.MaxDraws is reached. The first
+// draws of a larger design are those of the smaller one, so each doubling
+// only adds draws, and what was computed for the earlier draws is kept.
 func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt Options, prog *progress) ([]ComparisonResult, *SeriesResult, error) {
+	e, err := newEngine(st, u, kb, set, opt)
+	if err != nil {
+		return nil, nil, err
+	}
 	maxDraws := max(opt.MaxDraws, opt.Draws)
 	for {
-		out, sr, worst, err := explainUnitDraws(ctx, st, u, kb, set, opt, prog)
-		if err != nil || worst <= mcseTarget || opt.Draws >= maxDraws || opt.FixedDraws {
-			if err == nil && worst > mcseTarget && !opt.FixedDraws {
-				msg := fmt.Sprintf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", worst, opt.Draws, mcseTarget)
-				for k := range out {
-					out[k].Warnings = append(out[k].Warnings, msg)
-				}
-				if sr != nil {
-					sr.Warnings = append(sr.Warnings, msg)
-				}
-			}
-			return out, sr, err
+		sc, err := e.score(ctx, prog)
+		if err != nil {
+			return nil, nil, err
 		}
-		opt.Draws = min(2*opt.Draws, maxDraws)
+		if sc.worst <= mcseTarget || len(e.draws) >= maxDraws || opt.FixedDraws {
+			if sc.worst > mcseTarget && !opt.FixedDraws {
+				sc.warnf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", sc.worst, len(e.draws), mcseTarget)
+			}
+			return e.report(ctx, sc, u, prog)
+		}
+		if err := e.grow(newWorker(e.site), min(2*len(e.draws), maxDraws)); err != nil {
+			return nil, nil, err
+		}
 	}
 }
 
-// explainUnitDraws explains a unit with opt.Draws draws and returns the
-// largest Monte Carlo error of its top posteriors.
-func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt Options, prog *progress) ([]ComparisonResult, *SeriesResult, float64, error) {
-	e, err := newEngine(st, u, kb, set, opt)
-	if err != nil {
-		return nil, nil, 0, err
-	}
-	site := e.site
+// scoring is one round of scoring a unit's hypotheses.
+type scoring struct {
+	ruledOut []string
+	// sorted entries, their hypotheses (joint over the parts) and the
+	// moments of every observable, by posterior.
+	sorted        []entry
+	joint         []Hypothesis
+	sortedMoments [][]Moments
+	leading       []int
+	noFit         bool
+	// worst is the largest Monte Carlo error of the top posteriors.
+	worst    float64
+	warnings []string
+}
+
+func (sc *scoring) warnf(format string, args ...any) {
+	sc.warnings = append(sc.warnings, fmt.Sprintf(format, args...))
+}
+
+// score scores every hypothesis of the unit with the engine's draws: the
+// singles, the pairs they suggest, posteriors with their Monte Carlo error.
+func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
+	sc := &scoring{}
+	site, kb, set, opt := e.site, e.kb, e.set, e.opt
 	sustained, pulse := e.parts[0].cmp.Responses()
-	var ruledOut []string
 
 	// Singles: every response the site can express, sustained and/or as a
 	// pulse, and the undeclared sources its context makes possible.
@@ -364,14 +413,14 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 		}
 		if c.Source != "" && !rules.SourcePossible(kb, c, e.ctx) {
 			if !slices.Contains(e.ctx.Declared, c.Source) {
-				ruledOut = append(ruledOut, c.Source)
+				sc.ruledOut = append(sc.ruledOut, c.Source)
 			}
 			continue
 		}
 		k, why := e.compile(c, false)
 		if k == nil {
 			if why != "" {
-				e.warnf("%s not tested: %s", c.ID, why)
+				sc.warnf("%s not tested: %s", c.ID, why)
 			}
 			continue
 		}
@@ -396,7 +445,7 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
-		return nil, nil, 0, err
+		return nil, err
 	}
 	noneCand := set.Candidate(rules.None)
 	nonePrior, noneAdj := set.Prior(noneCand, e.ctx)
@@ -426,7 +475,7 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
-		return nil, nil, 0, err
+		return nil, err
 	}
 	for i, j := range jobs {
 		s := pairScores[i]
@@ -506,7 +555,7 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 		}
 	}
 	if len(quiet) > 0 {
-		e.warnf("%s would not move the observed quantities beyond their standard error from what %s predicts anywhere in %s prior range, so the data cannot speak to %s; %s counted with %q", strings.Join(quiet, ", "), hyps[0].Label, map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1], hyps[0].Label)
+		sc.warnf("%s would not move the observed quantities beyond their standard error from what %s predicts anywhere in %s prior range, so the data cannot speak to %s; %s counted with %q", strings.Join(quiet, ", "), hyps[0].Label, map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1], hyps[0].Label)
 	}
 	// Monte Carlo error of each posterior: dlog p_H = (1 − p_H)·dlog Z_H −
 	// Σ_{k≠H} p_k·dlog Z_k, with the relative variances of the evidences
@@ -539,10 +588,11 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 	for i, k := range order {
 		sorted[i], joint[i], sortedMoments[i] = entries[k], hyps[k], moments[k]
 	}
-	noFit := joint[0].Fit.P < noFitP
-	if noFit {
+	sc.sorted, sc.joint, sc.sortedMoments = sorted, joint, sortedMoments
+	sc.noFit = joint[0].Fit.P < noFitP
+	if sc.noFit {
 		top := joint[0]
-		e.warnf("no candidate reproduces the observed shifts: the best, %s, fails its fit check (χ² = %.1f on %d observables, p = %.2g). The cause may be a change nlens does not model, a site model unlike this site, or an error in the data; the ranking below is not evidence for any of them", top.ID, top.Fit.Chi2, top.Fit.DOF, top.Fit.P)
+		sc.warnf("no candidate reproduces the observed shifts: the best, %s, fails its fit check (χ² = %.1f on %d observables, p = %.2g). The cause may be a change nlens does not model, a site model unlike this site, or an error in the data; the ranking below is not evidence for any of them", top.ID, top.Fit.Chi2, top.Fit.DOF, top.Fit.P)
 	}
 	var leading []int
 	var mass float64
@@ -556,12 +606,27 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 		leading = append(leading, i)
 		mass += h.Posterior
 	}
+	sc.leading = leading
+	for i := range min(mcseTop, len(joint)) {
+		sc.worst = math.Max(sc.worst, joint[i].PosteriorMCSE)
+	}
+	return sc, nil
+}
+
+// report writes the results of a scored unit: one per member comparison,
+// with the joint ranking, the member's own predicted shifts, fit, fluxes,
+// measurements and paths, and for a series its joint result.
+func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress) ([]ComparisonResult, *SeriesResult, error) {
+	kb := e.kb
+	sorted, joint, sortedMoments, leading, noFit, ruledOut := sc.sorted, sc.joint, sc.sortedMoments, sc.leading, sc.noFit, sc.ruledOut
+	warnings := append(slices.Clone(e.warnings), sc.warnings...)
+	warnf := func(format string, args ...any) { warnings = append(warnings, fmt.Sprintf(format, args...)) }
 	for _, p := range e.parts {
 		if p.cmp.Steady {
-			e.warnf("%s", steadyWarning(e, p))
+			warnf("%s", steadyWarning(e, p))
 		}
 		if p.cmp.ShiftsOnly {
-			e.warnf("the shifts of %q came from a paper without group levels: the model's baseline could not be compared with a control, so the nuisance draws are unweighted", p.cmp.Name)
+			warnf("the shifts of %q came from a paper without group levels: the model's baseline could not be compared with a control, so the nuisance draws are unweighted", p.cmp.Name)
 		}
 	}
 
@@ -570,7 +635,7 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 	var out []ComparisonResult
 	for pi, pt := range e.parts {
 		cr := ComparisonResult{Name: pt.cmp.Name, Years: pt.cmp.Years, Observed: pt.cmp.Observed, Treatment: describeTreatment(kb, pt.tr),
-			RuledOut: ruledOut, Series: u.series, Steady: pt.cmp.Steady, ShiftsOnly: pt.cmp.ShiftsOnly, NoFit: noFit}
+			RuledOut: ruledOut, Series: u.series, Steady: pt.cmp.Steady, ShiftsOnly: pt.cmp.ShiftsOnly, NoFit: noFit, FittedSite: e.fit}
 		for i, h := range joint {
 			h.Predicted = map[string]Moments{}
 			for o := pt.lo; o < pt.hi; o++ {
@@ -587,24 +652,20 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 			cr.Leading = append(cr.Leading, cr.Hypotheses[i].ID)
 		}
 		if err := e.nextMeasurements(ctx, &cr, sorted, leading, pi, prog); err != nil {
-			return nil, nil, 0, err
+			return nil, nil, err
 		}
 		cr.Paths = e.paths(&cr, sorted, leading, pi)
-		cr.Warnings = slices.Clone(e.warnings)
+		cr.Warnings = slices.Clone(warnings)
 		out = append(out, cr)
 	}
 	prog.add(4)
-	var worst float64
-	for i := range min(mcseTop, len(joint)) {
-		worst = math.Max(worst, joint[i].PosteriorMCSE)
-	}
 	for k := range out {
 		out[k].Draws = len(e.draws)
 	}
 	if u.series == "" {
-		return out, nil, worst, nil
+		return out, nil, nil
 	}
-	sr := &SeriesResult{Name: u.series, Kind: "years", NoFit: noFit, Warnings: slices.Clone(e.warnings)}
+	sr := &SeriesResult{Name: u.series, Kind: "years", NoFit: noFit, Warnings: slices.Clone(warnings)}
 	for _, p := range e.parts {
 		sr.Comparisons = append(sr.Comparisons, p.cmp.Name)
 		if p.scale != 1 {
@@ -623,7 +684,7 @@ func explainUnitDraws(ctx context.Context, st *study.Study, u unit, kb *knowledg
 	}
 	last := out[len(out)-1]
 	sr.Measurements, sr.Leading = last.Measurements, last.Leading
-	return out, sr, worst, nil
+	return out, sr, nil
 }
 
 // steadyWarning says how far from its new steady state the slowest pool

@@ -27,6 +27,9 @@ func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, ent
 	}
 	var items []catalogueItem
 	for _, m := range e.kb.Measurements {
+		if !e.site.Offers(m) {
+			continue
+		}
 		o, err := e.site.Observable(m.Observable)
 		if err != nil || e.alreadyObserved(o) {
 			continue

@@ -65,7 +65,7 @@ func synthesize(t *testing.T, kb *knowledge.Base, tr truth, seed uint64) *study.
 		t.Fatal(err)
 	}
 	if tr.perturb > 0 {
-		ds, err := makeDraws(site, kb, []forward.Treatment{tr.treatment}, tr.perturb+1, newStratified(seed, 4242, tr.perturb+1))
+		ds, err := makeDraws(site, kb, []forward.Treatment{tr.treatment}, 0, tr.perturb+1, newStratified(seed, 4242, tr.perturb+1))
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -81,6 +81,9 @@ type ComparisonResult struct {
 	// Steady is set for a contrast read at the new steady state; ShiftsOnly
 	// when the shifts came from a paper without group levels.
 	Steady, ShiftsOnly bool
+	// FittedSite is the site model fitted to the controls' absolute values
+	// that the ranking used (DESIGN §5); nil when not fitted.
+	FittedSite *SiteFit
 	// Hypotheses sorted by posterior, highest first.
 	Hypotheses []Hypothesis
 	// Measurements sorted by information gain, highest first.

@@ -91,10 +91,12 @@ func TestSignatureClearCut(t *testing.T) {
 // Under a chronic NH4NO3 load with less plant N passing through fungi,
 // foliage rises, sporocarps fall (the fungi now take up the lighter added
 // N) and the bulk soil stays flat (Högberg et al. 2011, C-sec; the
-// sporocarp direction from memory, FACTS-2 §3).
+// sporocarp direction from memory, FACTS-2 §3). "Flat" is read here as a
+// soil shift under a fifth of the foliar one (our reading of "unchanged"
+// beside a clear foliar rise, not a published threshold).
 func TestSignatureLostMycorrhizalFunction(t *testing.T) {
 	t.Parallel()
-	got := signature(t, "boreal-conifer-forest", add("ammonium-nitrate", 70), years(15),
+	got := signature(t, "boreal-conifer-forest", add("ammonium-nitrate", 70), years(10),
 		[]response{{"less-mycorrhizal-route", 0.05}}, "foliage", "fungi", "soil")
 	if got["foliage"] <= 0.5 {
 		t.Errorf("foliage %+.2f ‰, want a rise (Högberg et al. 2011)", got["foliage"])
@@ -102,8 +104,8 @@ func TestSignatureLostMycorrhizalFunction(t *testing.T) {
 	if got["fungi"] >= 0 {
 		t.Errorf("sporocarps %+.2f ‰, want a fall (Högberg et al. 2011, from memory)", got["fungi"])
 	}
-	if math.Abs(got["soil"]) > 0.5 {
-		t.Errorf("bulk soil %+.2f ‰, want flat within ±0.5 ‰ (Högberg et al. 2011: weighted soil δ15N unchanged)", got["soil"])
+	if math.Abs(got["soil"]) > 0.2*got["foliage"] {
+		t.Errorf("bulk soil %+.2f ‰ against foliage %+.2f ‰, want flat (Högberg et al. 2011: weighted soil δ15N unchanged)", got["soil"], got["foliage"])
 	}
 }
 

@@ -520,8 +520,6 @@ func checkCandidate(kb *knowledge.Base, doc *knowledge.Doc, c *Candidate, field 
 
 var drainages = []string{"well", "moderate", "poor"}
 
-// MycorrhizalTypes are the values a study's mycorrhizal_type may take.
-var MycorrhizalTypes = []string{"arbuscular", "ecto", "ericoid", "none", "mixed"}
 
 // Drainages are the values a study's drainage may take.
 var Drainages = drainages
@@ -574,7 +572,7 @@ func checkRule(kb *knowledge.Base, doc *knowledge.Doc, r *Rule, field string, pa
 		}
 	}
 	for _, m := range w.Mycorrhizal {
-		if !slices.Contains(MycorrhizalTypes, m) {
+		if !slices.Contains(knowledge.MycorrhizalTypes, m) {
 			at("when", "unknown mycorrhizal type %q", m)
 		}
 	}

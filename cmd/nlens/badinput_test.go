@@ -238,11 +238,11 @@ func badCases() []badCase {
 			"study.yaml:4: samples: cannot read samples file samples.csv: no such file or directory"},
 		// Site files (DESIGN §3), through simulate --site FILE.
 		{"unknown site key", site("site: small\n", "site: small\nsoil_ph: 5\n"), simulate,
-			"site.yaml:2: soil_ph: unknown key (keys here: site, description, references, note, pools, nitrate_oxygen, inputs, transfers)"},
+			"site.yaml:2: soil_ph: unknown key (keys here: site, description, references, note, mycorrhizal_type, land_use, pools, nitrate_oxygen, inputs, transfers)"},
 		{"unknown transfer key", site("nitrate, rate: 10}", "nitrate, rat: 10}"), simulate,
 			"site.yaml:11: transfers[1].rat: unknown key (keys here: process, from, to, rate, epsilon, epsilon18, spread)"},
 		{"unknown pool", site("  plant: 100\n", "  plant: 100\n  litter: 30\n"), simulate,
-			`site.yaml:7: pools.litter: unknown pool "litter" (pools: organic, ammonium, nitrate, plant, fungi, foliage)`},
+			`site.yaml:7: pools.litter: unknown pool "litter" (pools: organic, ammonium, nitrate, plant, fungi, foliage, forest-floor, n2o)`},
 		{"unknown pool in a transfer", site("to: plant, rate: 15", "to: plants, rate: 15"), simulate,
 			`site.yaml:12: transfers[2].to: unknown pool "plants" (expected a defined pool or out: organic, ammonium, nitrate, plant)`},
 		{"negative rate", site("rate: 10}", "rate: -10}"), simulate,

@@ -28,6 +28,8 @@ type explainOptions struct {
 	allowEnriched bool
 	out           string
 	force         bool
+	noSiteFit     bool
+	maxDraws      int
 }
 
 func newExplainCmd(e *env) *cobra.Command {
@@ -54,6 +56,7 @@ figures as SVG and PNG; an existing non-empty DIR needs --force.`),
   nlens explain study.yaml --out report/
   nlens explain study.yaml --format json --seed 7
   nlens explain study.yaml --draws 200 --model-error 0.3
+  nlens explain study.yaml --no-site-fit
   nlens explain study.yaml --rules my-rules.yaml`),
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -71,7 +74,9 @@ func addExplainFlags(cmd *cobra.Command, opt *explainOptions) {
 	f.StringVar(&opt.out, "out", "", "also write the full report (Markdown, JSON, BibTeX, figures) into this directory")
 	f.BoolVar(&opt.force, "force", false, "with --out, replace the report files in a directory that is not empty")
 	f.Uint64Var(&opt.seed, "seed", rank.DefaultSeed, "random seed: the same seed gives the same output")
-	f.IntVar(&opt.draws, "draws", rank.DefaultDraws, "nuisance draws of isotope effects, source δ and rates")
+	f.IntVar(&opt.draws, "draws", rank.DefaultDraws, "nuisance draws of isotope effects, source δ, rates and treatment sizes to start with; they double while the top posteriors' Monte Carlo error exceeds 0.02")
+	f.IntVar(&opt.maxDraws, "max-draws", rank.DefaultMaxDraws, "the most nuisance draws the doubling may reach")
+	f.BoolVar(&opt.noSiteFit, "no-site-fit", false, "keep the site model as given instead of fitting it to the control's absolute values")
 	f.Float64Var(&opt.modelError, "model-error", rank.DefaultModelError, "structural model error σ_model, ‰")
 	f.StringArrayVar(&opt.rulesFiles, "rules", nil, "extra candidates or context rules (YAML; repeatable)")
 	f.BoolVar(&opt.allowEnriched, "allow-enriched", false, "accept |δ15N| > 100 ‰ (15N tracer studies)")
@@ -106,7 +111,10 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	if ctx == nil {
 		ctx = context.Background()
 	}
-	ro := rank.Options{Seed: opt.seed, Draws: opt.draws, ModelError: opt.modelError, Version: version}
+	if opt.maxDraws < 1 || opt.maxDraws > 100000 {
+		return badf("--max-draws must be between 1 and 100000, got %d", opt.maxDraws)
+	}
+	ro := rank.Options{Seed: opt.seed, Draws: opt.draws, MaxDraws: opt.maxDraws, ModelError: opt.modelError, NoSiteFit: opt.noSiteFit, Version: version}
 	if e.stderrTerminal {
 		p := newProgressBar(e.stderr, time.Second)
 		defer p.finish()

@@ -116,7 +116,7 @@ product is depleted (α = 1 + ε/1000 = R_substrate/R_product).`),
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
 		return badInput{fmt.Errorf("%w (see nlens %s --help)", err, c.Name())}
 	})
-	root.AddCommand(newExplainCmd(e), newCheckCmd(e), newSimulateCmd(e), newFactsCmd(e), newCalcCmd(e), newDemoCmd(e))
+	root.AddCommand(newExplainCmd(e), newCheckCmd(e), newSimulateCmd(e), newSiteCmd(e), newFactsCmd(e), newCalcCmd(e), newDemoCmd(e))
 	return root
 }
 

@@ -18,6 +18,19 @@ type ExplainJSON struct {
 	Version     string           `json:"version"`
 	Seed        uint64           `json:"seed"`
 	Comparisons []ComparisonJSON `json:"comparisons"`
+	// Series holds the joint ranking of each series (DESIGN §6).
+	Series []SeriesJSON `json:"series"`
+}
+
+// SeriesJSON is the joint explanation of one series; its hypotheses'
+// predicted values are keyed "comparison/observable".
+type SeriesJSON struct {
+	Name         string            `json:"name"`
+	Kind         string            `json:"kind"`
+	Comparisons  []string          `json:"comparisons"`
+	Hypotheses   []HypothesisJSON  `json:"hypotheses"`
+	Measurements []MeasurementJSON `json:"measurements"`
+	Warnings     []string          `json:"warnings"`
 }
 
 // ComparisonJSON is one comparison's result.
@@ -32,7 +45,10 @@ type ComparisonJSON struct {
 	Measurements []MeasurementJSON    `json:"measurements"`
 	// RuledOut lists undeclared sources the site context rules out.
 	RuledOut []string `json:"ruled_out_sources"`
-	Warnings []string `json:"warnings"`
+	// FittedSite is the site model fitted to the control (null when not
+	// fitted: --no-site-fit, shifts from a paper, nothing to fit).
+	FittedSite *FittedSite `json:"fitted_site"`
+	Warnings   []string    `json:"warnings"`
 }
 
 // TreatmentJSON is what was applied to the treatment arm in every
@@ -158,9 +174,9 @@ func round6(v float64) float64 {
 
 // ToJSON converts a result to the JSON contract.
 func ToJSON(r *rank.Result) ExplainJSON {
-	out := ExplainJSON{Version: r.Version, Seed: r.Seed, Comparisons: []ComparisonJSON{}}
+	out := ExplainJSON{Version: r.Version, Seed: r.Seed, Comparisons: []ComparisonJSON{}, Series: []SeriesJSON{}}
 	for _, c := range r.Comparisons {
-		cj := ComparisonJSON{Name: c.Name, Observed: map[string]ShiftJSON{}, Hypotheses: []HypothesisJSON{}, Measurements: []MeasurementJSON{}, Warnings: append([]string{}, c.Warnings...)}
+		cj := ComparisonJSON{Name: c.Name, Observed: map[string]ShiftJSON{}, Hypotheses: []HypothesisJSON{}, Warnings: append([]string{}, c.Warnings...)}
 		for _, o := range c.Observed {
 			cj.Observed[o.Observable] = ShiftJSON{round6(o.Shift), round6(o.SE)}
 		}
@@ -168,30 +184,54 @@ func ToJSON(r *rank.Result) ExplainJSON {
 		cj.Years, cj.Series, cj.Draws = c.Years, nullable(c.Series), c.Draws
 		cj.RuledOut = append([]string{}, c.RuledOut...)
 		for _, h := range c.Hypotheses {
-			hj := HypothesisJSON{ID: h.ID, Label: h.Label, Direction: nullable(h.Direction), Posterior: round6(h.Posterior), PosteriorMCSE: round6(h.PosteriorMCSE), Predicted: map[string]MomentsJSON{},
-				Magnitudes: []MagnitudeJSON{}, Fit: FitJSON{round6(h.Fit.Chi2), h.Fit.DOF, round6(h.Fit.P)}}
-			for _, m := range h.Magnitudes {
-				hj.Magnitudes = append(hj.Magnitudes, magnitudeJSON(m))
-			}
-			if len(hj.Magnitudes) > 0 {
-				hj.Magnitude = &hj.Magnitudes[0]
-			}
-			if d := h.Duration; d != nil {
-				hj.Duration = &DurationJSON{Best: round6(d.Best), Low: round6(d.Low), High: round6(d.High), Unit: "years", AtBound: nullable(d.AtBound)}
-			}
-			for k, m := range h.Predicted {
-				hj.Predicted[k] = MomentsJSON{round6(m.Mean), round6(m.SD)}
-			}
-			cj.Hypotheses = append(cj.Hypotheses, hj)
+			cj.Hypotheses = append(cj.Hypotheses, hypothesisJSON(h))
 		}
-		for _, m := range c.Measurements {
-			mj := MeasurementJSON{ID: m.ID, Label: m.Label, Bits: round6(m.Bits), Cost: costName(m.Cost), Method: m.Method, Predicted: map[string]MomentsJSON{}}
-			for k, p := range m.Predicted {
-				mj.Predicted[k] = MomentsJSON{round6(p.Mean), round6(p.SD)}
-			}
-			cj.Measurements = append(cj.Measurements, mj)
+		if c.FittedSite != nil {
+			f := FittedSiteJSON(c.FittedSite)
+			cj.FittedSite = &f
 		}
+		cj.Measurements = measurementsJSON(c.Measurements)
 		out.Comparisons = append(out.Comparisons, cj)
+	}
+	for _, sr := range r.Series {
+		sj := SeriesJSON{Name: sr.Name, Kind: sr.Kind, Comparisons: sr.Comparisons, Hypotheses: []HypothesisJSON{}, Measurements: measurementsJSON(sr.Measurements), Warnings: append([]string{}, sr.Warnings...)}
+		for _, h := range sr.Hypotheses {
+			sj.Hypotheses = append(sj.Hypotheses, hypothesisJSON(h))
+		}
+		out.Series = append(out.Series, sj)
+	}
+	return out
+}
+
+// hypothesisJSON converts one hypothesis; for a pair, id, label and
+// magnitudes list the parts in one order.
+func hypothesisJSON(h rank.Hypothesis) HypothesisJSON {
+	hj := HypothesisJSON{ID: h.ID, Label: h.Label, Direction: nullable(h.Direction), Posterior: round6(h.Posterior), PosteriorMCSE: round6(h.PosteriorMCSE), Predicted: map[string]MomentsJSON{},
+		Magnitudes: []MagnitudeJSON{}, Fit: FitJSON{round6(h.Fit.Chi2), h.Fit.DOF, round6(h.Fit.P)}}
+	for _, m := range h.Magnitudes {
+		hj.Magnitudes = append(hj.Magnitudes, magnitudeJSON(m))
+	}
+	if len(hj.Magnitudes) > 0 {
+		hj.Magnitude = &hj.Magnitudes[0]
+	}
+	if d := h.Duration; d != nil {
+		hj.Duration = &DurationJSON{Best: round6(d.Best), Low: round6(d.Low), High: round6(d.High), Unit: "years", AtBound: nullable(d.AtBound)}
+	}
+	for k, m := range h.Predicted {
+		hj.Predicted[k] = MomentsJSON{round6(m.Mean), round6(m.SD)}
+	}
+	return hj
+}
+
+// measurementsJSON converts the recommended measurements.
+func measurementsJSON(ms []rank.Measurement) []MeasurementJSON {
+	out := []MeasurementJSON{}
+	for _, m := range ms {
+		mj := MeasurementJSON{ID: m.ID, Label: m.Label, Bits: round6(m.Bits), Cost: costName(m.Cost), Method: m.Method, Predicted: map[string]MomentsJSON{}}
+		for k, p := range m.Predicted {
+			mj.Predicted[k] = MomentsJSON{round6(p.Mean), round6(p.SD)}
+		}
+		out = append(out, mj)
 	}
 	return out
 }

@@ -279,10 +279,19 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 			}
 			ctx.PrecipMM = se.PrecipMM
 		}
-		if se.Mycorrhizal != "" && !slices.Contains(rules.MycorrhizalTypes, se.Mycorrhizal) {
-			bad("site.mycorrhizal_type", []any{"site", "mycorrhizal_type"}, "expected one of %s, got %q", strings.Join(rules.MycorrhizalTypes, ", "), se.Mycorrhizal)
+		if se.Mycorrhizal != "" && !slices.Contains(knowledge.MycorrhizalTypes, se.Mycorrhizal) {
+			bad("site.mycorrhizal_type", []any{"site", "mycorrhizal_type"}, "expected one of %s, got %q", strings.Join(knowledge.MycorrhizalTypes, ", "), se.Mycorrhizal)
+		} else if se.Mycorrhizal != "" && st.Site != nil {
+			// The study's statement of its site's mycorrhizal type sets the
+			// fungal transfer effect of the site model (DESIGN §3).
+			if err := st.Site.SetMycorrhizalType(kb, se.Mycorrhizal); err != nil {
+				bad("site.mycorrhizal_type", []any{"site", "mycorrhizal_type"}, "%v", err)
+			}
 		}
 		ctx.Mycorrhizal = se.Mycorrhizal
+		if ctx.Mycorrhizal == "" && st.Site != nil {
+			ctx.Mycorrhizal = st.Site.MycorrhizalType
+		}
 		if se.LandUse != "" && !slices.Contains(knowledge.LandUses, se.LandUse) {
 			bad("site.land_use", []any{"site", "land_use"}, "expected one of %s, got %q", strings.Join(knowledge.LandUses, ", "), se.LandUse)
 		}
