@@ -81,7 +81,6 @@ func (c SourceContexts) Empty() bool {
 	return !c.Anywhere && len(c.LandUse) == 0 && len(c.Nearby) == 0 && len(c.Management) == 0
 }
 
-
 // NearbyKinds are the values of a study's site.nearby (DESIGN §6).
 var NearbyKinds = []string{"cropland", "pasture", "livestock", "settlement", "septic", "road", "industry"}
 

@@ -275,7 +275,6 @@ func fitParams(site *forward.Site) []fitParam {
 	return out
 }
 
-
 // epsilon returns the ε of an ε parameter at coordinate u.
 func (p *fitParam) epsilon(u float64) float64 { return p.lo + (p.hi-p.lo)*logistic(u) }
 

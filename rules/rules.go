@@ -520,7 +520,6 @@ func checkCandidate(kb *knowledge.Base, doc *knowledge.Doc, c *Candidate, field 
 
 var drainages = []string{"well", "moderate", "poor"}
 
-
 // Drainages are the values a study's drainage may take.
 var Drainages = drainages
 
