@@ -130,14 +130,19 @@ func (cs *columnSet) missingColumnMsg(role string) string {
 	return fmt.Sprintf("missing column %q (the header needs sample, group, observable and value or d15n)", role)
 }
 
-// noHeaderMsg says that no row names any required column.
-func (cs *columnSet) noHeaderMsg() string {
+// noHeaderMsg says that no row (or not the row header_row names) names any
+// required column.
+func (cs *columnSet) noHeaderMsg(headerRow int) string {
+	where := "no row names"
+	if headerRow > 0 {
+		where = "the row header_row names holds none of"
+	}
 	if len(cs.mapped) == 0 {
-		return "no row names the columns sample, group, observable and value (or d15n); name them in the header, or map the lab's names with columns: in the study"
+		return where + " the columns sample, group, observable and value (or d15n); name them in the header, or map the lab's names with columns: in the study"
 	}
 	var names []string
 	for _, role := range requiredRoles {
 		names = append(names, fmt.Sprintf("%q", cs.label(role)))
 	}
-	return fmt.Sprintf("no row holds the columns %s that columns: maps; check their spelling against the header", strings.Join(names, ", "))
+	return fmt.Sprintf("%s the columns %s that columns: maps; check their spelling against the header", where, strings.Join(names, ", "))
 }

@@ -76,23 +76,31 @@ func (s SampleSource) String() string {
 		unit = "row"
 		fmt.Fprintf(&b, "%s: workbook, sheet %s", s.File, sheetRef(s.Sheet))
 	}
-	fmt.Fprintf(&b, "; header on %s %d, %d data rows", unit, s.HeaderRow, s.Rows)
+	fmt.Fprintf(&b, "; header on %s %d, %s", unit, s.HeaderRow, count(s.Rows, "data row"))
 	if s.Rows > 0 {
 		fmt.Fprintf(&b, " (to %s %d)", unit, s.LastRow)
 	}
 	if s.LeftOut > 0 {
-		fmt.Fprintf(&b, "; %d rows left out as values maps them to ignore", s.LeftOut)
+		fmt.Fprintf(&b, "; %s left out as values maps them to ignore", count(s.LeftOut, "row"))
 	}
 	if s.AtomPercent > 0 {
-		fmt.Fprintf(&b, "; %d values converted from 15N atom %% with R_AIR = %g", s.AtomPercent, forward.RAir)
+		fmt.Fprintf(&b, "; %s converted from 15N atom %% with R_AIR = %g", count(s.AtomPercent, "value"), forward.RAir)
 	}
 	if s.ForestFloor > 0 {
-		fmt.Fprintf(&b, "; %d soil rows assigned to forest-floor by depth or horizon", s.ForestFloor)
+		fmt.Fprintf(&b, "; %s assigned to forest-floor by depth or horizon", count(s.ForestFloor, "soil row"))
 	}
 	if len(s.Unused) > 0 {
 		fmt.Fprintf(&b, "; columns not used: %s", strings.Join(s.Unused, ", "))
 	}
 	return b.String()
+}
+
+// count writes n things: "1 row", "2 rows".
+func count(n int, thing string) string {
+	if n == 1 {
+		return "1 " + thing
+	}
+	return fmt.Sprintf("%d %ss", n, thing)
 }
 
 // MaxSamplesBytes is the largest samples file nlens reads (64 MiB): a lab's
@@ -182,7 +190,7 @@ func (t *table) header(errs *problems) {
 		return
 	}
 	if h.matched == 0 {
-		errs.add(g.errAt(g.rows[h.index].pos, -1, "", "%s", t.cols.noHeaderMsg()))
+		errs.add(g.errAt(g.rows[h.index].pos, -1, "", "%s", t.cols.noHeaderMsg(t.spec.HeaderRow)))
 		return
 	}
 	t.head = h.index

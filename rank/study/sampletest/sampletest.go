@@ -104,29 +104,42 @@ type Sheet struct {
 
 var reNumber = regexp.MustCompile(`^-?[0-9]+(\.[0-9]+)?([eE][+-]?[0-9]+)?$`)
 
-// Workbook writes the sheets to an .xlsx workbook, in order.
+// Workbook writes the sheets to an .xlsx workbook, in order; a failure
+// ends the test.
 func Workbook(t testing.TB, sheets ...Sheet) []byte {
 	t.Helper()
+	data, err := WorkbookBytes(sheets...)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return data
+}
+
+// WorkbookBytes writes the sheets to an .xlsx workbook, in order.
+func WorkbookBytes(sheets ...Sheet) (_ []byte, err error) {
 	f := excelize.NewFile()
 	defer f.Close()
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
+	// must records the first error; later calls do nothing.
+	must := func(e error) bool {
+		if err == nil {
+			err = e
 		}
+		return err == nil
 	}
 	for i, s := range sheets {
 		if i == 0 {
 			must(f.SetSheetName("Sheet1", s.Name))
 		} else {
-			_, err := f.NewSheet(s.Name)
-			must(err)
+			_, e := f.NewSheet(s.Name)
+			must(e)
 		}
 		top := max(s.TopRow, 1)
 		for r, row := range s.Rows {
 			for c, cell := range row {
-				name, err := excelize.CoordinatesToCellName(c+1, top+r)
-				must(err)
+				name, e := excelize.CoordinatesToCellName(c+1, top+r)
+				if !must(e) {
+					return nil, err
+				}
 				if formula, ok := strings.CutPrefix(cell, "="); ok {
 					expr, saved, _ := strings.Cut(formula, "|")
 					if saved != "" {
@@ -145,20 +158,24 @@ func Workbook(t testing.TB, sheets ...Sheet) []byte {
 			must(f.MergeCell(s.Name, a, b))
 		}
 		if len(s.Extra) > 0 {
-			style, err := f.NewStyle(&excelize.Style{NumFmt: 2})
-			must(err)
-			for _, e := range s.Extra {
-				must(f.SetCellStyle(s.Name, e[0], e[0], style))
-				if e[1] != "" {
-					must(setCell(f, s.Name, e[0], e[1]))
+			style, e := f.NewStyle(&excelize.Style{NumFmt: 2})
+			must(e)
+			for _, x := range s.Extra {
+				must(f.SetCellStyle(s.Name, x[0], x[0], style))
+				if x[1] != "" {
+					must(setCell(f, s.Name, x[0], x[1]))
 				}
 			}
 		}
 	}
+	if err != nil {
+		return nil, err
+	}
 	var buf bytes.Buffer
-	_, err := f.WriteTo(&buf)
-	must(err)
-	return buf.Bytes()
+	if _, err := f.WriteTo(&buf); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
 }
 
 func setCell(f *excelize.File, sheet, cell, text string) error {
