@@ -93,3 +93,63 @@ func write(t *testing.T, path string, data []byte) {
 		t.Fatal(err)
 	}
 }
+
+// A lab's workbook as it arrives (invented): a title block, the lab's own
+// headers, 15N in atom % (computed with GNU bc 1.07.1 from the δ values of
+// samplesRows: atom % = 100·R/(1 + R), R = 0.0036765·(1 + δ/1000)), a depth
+// column with forest-floor and mineral depths, and a column nlens does not
+// use. With a columns and values mapping it goes through check and explain
+// unchanged, and check shows the foliage shift of samplesRows (+2.00 ‰, by
+// hand from the δ values). (The soil shift depends on whether the site
+// model has a forest-floor pool for the rows at −5–0 cm.)
+func TestLabWorkbookCheckAndExplain(t *testing.T) {
+	t.Parallel()
+	rows := [][]string{
+		{"Stable isotope results (invented)"},
+		{"Sample ID", "Plot treatment", "Material", "15N (at%)", "Depth (cm)", "C/N"},
+		{"c1", "Ctrl", "Leaf", "0.365755840703675", "", "21"},
+		{"c2", "Ctrl", "Leaf", "0.366120804882419", "", "22"},
+		{"c3", "Ctrl", "Leaf", "0.365938323127267", "", "20"},
+		{"t1", "N added", "Leaf", "0.366759485761535", "", "17"},
+		{"t2", "N added", "Leaf", "0.366577006345896", "", "18"},
+		{"c1", "Ctrl", "Soil", "0.367580634860222", "0-10", "15"},
+		{"c2", "Ctrl", "Soil", "0.367945585670526", "0-10", "14"},
+		{"t1", "N added", "Soil", "0.367854348218601", "0-10", "13"},
+		{"t2", "N added", "Soil", "0.368036822955351", "0-10", "13"},
+		{"c1", "Ctrl", "Soil", "0.3661", "-5-0", "25"},
+		{"c2", "Ctrl", "Soil", "0.3662", "-5-0", "25"},
+		{"t1", "N added", "Soil", "0.3663", "-5-0", "24"},
+		{"t2", "N added", "Soil", "0.3664", "-5-0", "24"},
+	}
+	dir := t.TempDir()
+	study := filepath.Join(dir, "study.yaml")
+	write(t, study, []byte(`title: Lab workbook (invented)
+site: {template: temperate-deciduous-forest}
+comparisons:
+  - {name: N added vs control, control: control, treatment: fert, years: 3}
+samples:
+  file: isotopes.xlsx
+  columns: {sample: Sample ID, group: Plot treatment, observable: Material, value: 15N (at%), depth_cm: Depth (cm)}
+  values:
+    group: {Ctrl: control, N added: fert}
+    observable: {Leaf: foliage, Soil: soil}
+  unit: atom%
+`))
+	write(t, filepath.Join(dir, "isotopes.xlsx"), sampletest.Workbook(t, sampletest.Sheet{Name: "Results", Rows: rows}))
+	var out, errb bytes.Buffer
+	if code := runEnv(&env{stdout: &out, stderr: &errb}, []string{"check", study}); code != exitOK {
+		t.Fatalf("check: exit %d: %s", code, errb.String())
+	}
+	for _, want := range []string{"foliage", "+2.00", "13 values converted from 15N atom % with R_AIR = 0.0036765", `columns not used: "C/N"`} {
+		if !strings.Contains(strings.Join(strings.Fields(out.String()), " "), want) {
+			t.Errorf("check output lacks %q:\n%s", want, out.String())
+		}
+	}
+	out.Reset()
+	if code := runEnv(&env{stdout: &out, stderr: &errb}, []string{"explain", "--format", "json", "--draws", "8", study}); code != exitOK {
+		t.Fatalf("explain: exit %d: %s", code, errb.String())
+	}
+	if !strings.Contains(out.String(), `"hypotheses"`) {
+		t.Errorf("explain JSON has no hypotheses:\n%.400s", out.String())
+	}
+}

@@ -19,7 +19,7 @@ var (
 // defaultHeaders are the header texts each role is known by when `columns`
 // does not map it.
 var defaultHeaders = map[string][]string{
-	"value": {"value", "d15n"},
+	"value": {"value", "d15n", "δ15n"},
 }
 
 // columnSet knows which header names which role.

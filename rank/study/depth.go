@@ -37,13 +37,17 @@ var (
 	floorHorizon = []string{"O", "Oi", "Oe", "Oa", "Ol", "Of", "Oh", "L", "F", "H"}
 )
 
-// depthLayer reads a depth_cm cell: a depth or a range of depths in cm.
-func depthLayer(s string, decimalComma bool) (layer, bool) {
+// depthLayer reads a depth_cm cell: a depth or a range of depths in cm,
+// with num reading each number.
+func depthLayer(s string, num func(string) (float64, bool)) (layer, bool) {
 	s = strings.TrimSpace(s)
 	if s == "" {
 		return layerUnknown, true
 	}
-	if v, ok := parseNumber(s, decimalComma); ok {
+	if t, ok := strings.CutSuffix(strings.ToLower(s), "cm"); ok {
+		s = strings.TrimSpace(t) // "0-10 cm"
+	}
+	if v, ok := num(s); ok {
 		if v <= 0 {
 			return layerFloor, true
 		}
@@ -53,8 +57,8 @@ func depthLayer(s string, decimalComma bool) (layer, bool) {
 	if m == nil {
 		return layerUnknown, false
 	}
-	a, ok1 := parseNumber(m[1], decimalComma)
-	b, ok2 := parseNumber(m[2], decimalComma)
+	a, ok1 := num(m[1])
+	b, ok2 := num(m[2])
 	if !ok1 || !ok2 {
 		return layerUnknown, false
 	}
@@ -86,8 +90,8 @@ func hasForestFloor(site *forward.Site) bool {
 
 // layerOf combines a row's depth and horizon cells; a message when either
 // is unreadable or they disagree.
-func layerOf(depth, horizon string, decimalComma bool) (layer, string, string) {
-	d, ok := depthLayer(depth, decimalComma)
+func layerOf(depth, horizon string, num func(string) (float64, bool)) (layer, string, string) {
+	d, ok := depthLayer(depth, num)
 	if !ok {
 		return layerUnknown, "depth_cm", fmt.Sprintf("expected a depth in cm such as 10, 0-10 or -5 (forest floor above the mineral soil), got %q", depth)
 	}

@@ -25,6 +25,8 @@ func TestLayers(t *testing.T) {
 		{"0-10", "", false, layerMineral, ""},
 		{"0 – 10", "", false, layerMineral, ""},
 		{"10 to 20", "", false, layerMineral, ""},
+		{"0-10 cm", "", false, layerMineral, ""},
+		{"-5 cm", "", false, layerFloor, ""},
 		{"0", "", false, layerFloor, ""},
 		{"-5", "", false, layerFloor, ""},
 		{"−5–0", "", false, layerFloor, ""},
@@ -47,7 +49,8 @@ func TestLayers(t *testing.T) {
 		{"10-20", "Oa", false, layerUnknown, "horizon"},
 	}
 	for _, tt := range tests {
-		got, field, _ := layerOf(tt.depth, tt.horizon, tt.comma)
+		num := func(s string) (float64, bool) { return parseNumber(s, tt.comma) }
+		got, field, _ := layerOf(tt.depth, tt.horizon, num)
 		if got != tt.want || field != tt.field {
 			t.Errorf("depth %q horizon %q: got layer %d field %q, want %d %q", tt.depth, tt.horizon, got, field, tt.want, tt.field)
 		}

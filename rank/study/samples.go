@@ -178,6 +178,7 @@ type table struct {
 	unused    []string
 	warnings  []string
 	parseErrs []error // malformed CSV rows
+	textComma string  // the warning that a sheet's text numbers use a decimal comma
 }
 
 // header finds the header row and assigns each column to a role; problems
@@ -330,6 +331,9 @@ func (t *table) tabulate(site *forward.Site, opt Options) (*Samples, error) {
 	out := &Samples{Source: src}
 	out.Warnings = append(out.Warnings, t.warnings...)
 	out.Warnings = append(out.Warnings, t.book.mergeWarnings(t)...)
+	if t.textComma != "" {
+		out.Warnings = append(out.Warnings, t.textComma)
+	}
 	out.Warnings = append(out.Warnings, t.spec.unusedValueWarnings(g.file, used)...)
 	for _, k := range order {
 		a := groups[k]
@@ -368,6 +372,20 @@ func (t *table) tabulate(site *forward.Site, opt Options) (*Samples, error) {
 		return nil, err
 	}
 	return out, nil
+}
+
+// number reads a number of the table: in a CSV file with its decimal
+// mark; in a sheet, where numbers are stored with a point, a number stored
+// as text may also have a decimal comma (as some instrument software
+// writes them; tabulate says so).
+func (t *table) number(s string) (float64, bool) {
+	if t.dialect != nil {
+		return parseNumber(s, t.dialect.DecimalComma)
+	}
+	if v, ok := parseNumber(s, false); ok {
+		return v, true
+	}
+	return parseNumber(s, true)
 }
 
 // widthMsg says that a CSV row has another number of fields than the
@@ -433,7 +451,10 @@ func (t *table) readRow(r gridRow, site *forward.Site, opt Options, errs *proble
 		return bad("observable", "%s", msg)
 	}
 	decimalComma := t.dialect != nil && t.dialect.DecimalComma
-	v, ok := parseNumber(value, decimalComma)
+	v, ok := t.number(value)
+	if ok && t.book != nil && strings.Contains(value, ",") && t.textComma == "" {
+		t.textComma = fmt.Sprintf("%s: %s!%s: numbers stored as text with a decimal comma (first %q) are read as numbers", g.file, sheetRef(g.sheet), cellName(t.col["value"], r.pos), value)
+	}
 	if !ok {
 		c := t.col["value"]
 		switch what, isNot := t.book.notNumber(r.pos, c); {
@@ -478,7 +499,7 @@ func (t *table) readRow(r gridRow, site *forward.Site, opt Options, errs *proble
 		return bad("value", "%s", msg)
 	}
 	depth, horizon := get("depth_cm"), get("horizon")
-	lay, field, msg := layerOf(depth, horizon, decimalComma)
+	lay, field, msg := layerOf(depth, horizon, t.number)
 	if msg != "" {
 		return bad(field, "%s", msg)
 	}

@@ -27,7 +27,7 @@ const AtomPercentConversion = "15N atom % converted to δ15N (‰ vs AIR) exactl
 // empty unit cell means permil.
 var unitAliases = map[string][]string{
 	UnitPermil:      {"", "‰", "permil", "per mil", "per mille", "permille", "o/oo", "‰ air", "‰ vs air", "‰ vsmow", "‰ vs vsmow"},
-	UnitAtomPercent: {"atom%", "atom %", "atom percent", "at%", "at %", "at.%", "at. %", "atom% 15n", "atom % 15n", "at% 15n"},
+	UnitAtomPercent: {"atom%", "atom %", "atom-%", "atom percent", "at%", "at %", "at-%", "at.%", "at. %", "at.-%", "atom% 15n", "atom % 15n", "at% 15n"},
 }
 
 // acceptedUnits lists the units in messages.

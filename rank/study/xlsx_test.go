@@ -135,7 +135,6 @@ func TestWorkbookBadCells(t *testing.T) {
 		want  string
 	}{
 		{"text for a number", edit(11, 3, "n.d."), nil, `results.xlsx: δ15N!D11: value: expected a number, got "n.d."`},
-		{"decimal comma typed as text", edit(11, 3, "4,25"), nil, `results.xlsx: δ15N!D11: value: expected a number, got "4,25"`},
 		{"a truth value", edit(11, 3, "TRUE"), nil, `results.xlsx: δ15N!D11: value: expected a number, got a TRUE/FALSE cell ("1")`},
 		{"formula without a saved result", edit(6, 3, "=AVERAGE(D4:D5)|"), nil, "results.xlsx: δ15N!D6: value: the cell holds a formula but no saved result; open the workbook in a spreadsheet program and save it again"},
 		{"unknown material", edit(7, 2, "Stem"), nil, `results.xlsx: δ15N!C7: observable: unknown observable "Stem" (use foliage, roots, litter, soil, soil-ammonium, soil-nitrate, leachate-nitrate, fungi, n2o, n2o-sp, nitrate-d18o, ecosystem, pool:<pool>, flux:<process>)`},
@@ -250,5 +249,27 @@ func TestCellErrorText(t *testing.T) {
 		if got := tt.e.Error(); got != tt.want {
 			t.Errorf("got %q, want %q", got, tt.want)
 		}
+	}
+}
+
+// Numbers stored as text with a decimal comma, as some instrument software
+// writes them into a sheet, are read as numbers and said in a warning.
+func TestWorkbookTextDecimalComma(t *testing.T) {
+	t.Parallel()
+	rows := make([][]string, len(labRows))
+	for i, r := range labRows {
+		rows[i] = slices.Clone(r)
+		if i > 0 {
+			rows[i][3] = strings.Replace(r[3], ".", ",", 1) // stored as text
+		}
+	}
+	s, err := ReadSamples("r.xlsx", sampletest.Workbook(t, sampletest.Sheet{Name: "S", Rows: rows}), &SamplesSpec{File: "r.xlsx"}, testSite(t), Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	checkLabStats(t, s.Groups)
+	want := []string{`r.xlsx: S!D2: numbers stored as text with a decimal comma (first "-1,5") are read as numbers`}
+	if !slices.Equal(s.Warnings, want) {
+		t.Errorf("warnings:\n got %q\nwant %q", s.Warnings, want)
 	}
 }
