@@ -153,3 +153,22 @@ samples:
 		t.Errorf("explain JSON has no hypotheses:\n%.400s", out.String())
 	}
 }
+
+// A bad cell of a workbook is bad input: exit 1, the message naming sheet
+// and cell, nothing on stdout.
+func TestWorkbookBadCellExit(t *testing.T) {
+	t.Parallel()
+	rows := make([][]string, len(samplesRows))
+	copy(rows, samplesRows)
+	rows[6] = []string{"c1", "control", "soil", "n.d.", ""}
+	dir := t.TempDir()
+	study := filepath.Join(dir, "study.yaml")
+	write(t, study, []byte(strings.Replace(samplesStudy, "FILE", "results.xlsx", 1)))
+	write(t, filepath.Join(dir, "results.xlsx"), sampletest.Workbook(t, sampletest.Sheet{Name: "δ15N", Rows: rows}))
+	var out, errb bytes.Buffer
+	code := runEnv(&env{stdout: &out, stderr: &errb}, []string{"check", study})
+	want := "nlens: " + filepath.Join(dir, "results.xlsx") + `: δ15N!D7: value: expected a number, got "n.d."` + "\n"
+	if code != exitBadInput || errb.String() != want || out.Len() > 0 {
+		t.Errorf("exit %d, stderr %q, stdout %q; want exit 1, %q", code, errb.String(), out.String(), want)
+	}
+}

@@ -66,6 +66,9 @@ func TestCSVDialects(t *testing.T) {
 	t.Parallel()
 	site := testSite(t)
 	windows1252 := strings.ReplaceAll(string(sampletest.CSV(labRows, sampletest.CSVOptions{Separator: ';', DecimalComma: true})), "permil", "\x89") // ‰ is 0x89 in Windows-1252
+	// Each data row ends in a separator more than the header has.
+	head, body, _ := strings.Cut(string(sampletest.CSV(labRows, sampletest.CSVOptions{Separator: ';', DecimalComma: true})), "\n")
+	trailing := []byte(head + "\n" + strings.ReplaceAll(body, "\n", ";\n"))
 	tests := []struct {
 		name string
 		data []byte
@@ -82,6 +85,7 @@ func TestCSVDialects(t *testing.T) {
 		{"semicolon, UTF-16LE, decimal comma", sampletest.CSV(labRows, sampletest.CSVOptions{Separator: ';', DecimalComma: true, Encoding: sampletest.UTF16LE}), "semicolon-separated, decimal comma, UTF-16LE with byte-order mark", ""},
 		{"old Mac line ends", sampletest.CSV(labRows, sampletest.CSVOptions{LineEnd: "\r"}), "comma-separated, decimal point, UTF-8, lines ending in a carriage return", ""},
 		{"Windows-1252", []byte(windows1252), "semicolon-separated, decimal comma, Windows-1252", "rows.csv:2: the file is not UTF-8 (first on this line) and has no byte-order mark, so it was read as Windows-1252"},
+		{"trailing separators on the rows", trailing, "semicolon-separated, decimal comma, UTF-8", ""},
 		{"comment and blank lines first", append([]byte("# exported 2026-03-02\n\n"), sampletest.CSV(labRows, sampletest.CSVOptions{Separator: ';', DecimalComma: true})...), "semicolon-separated, decimal comma, UTF-8", ""},
 	}
 	for _, tt := range tests {
@@ -128,6 +132,8 @@ func TestCSVDialectErrors(t *testing.T) {
 			"rows.csv:3: expected 4 fields like the header, got 1; this row is semicolon-separated, the header comma-separated"},
 		{"decimal point in a decimal-comma file, one field", "sample;group;observable;value\ns1;a;soil;1,5\ns2;a;soil;2\ns3;a;soil;2,0.5\n",
 			`rows.csv:4: value: expected a number with a decimal comma like the rest of the file, got "2,0.5"`},
+		{"missing value", "sample,group,observable,value\ns1,a,soil,1\ns2,a,soil,\n",
+			"rows.csv:3: value: missing value; give the sample's value or remove its row"},
 		{"hexadecimal is no number", "sample,group,observable,value\ns1,a,soil,0x1p-2\ns2,a,soil,1\n",
 			`rows.csv:2: value: expected a number, got "0x1p-2"`},
 		{"empty", "", "rows.csv:1: the samples file is empty; expected a header row sample,group,observable,value"},

@@ -316,7 +316,7 @@ func (t *table) tabulate(site *forward.Site, opt Options) (*Samples, error) {
 		if errs.full() {
 			break
 		}
-		if t.dialect != nil && len(r.cells) != width {
+		if t.dialect != nil && len(r.cells) != width && !emptyBeyond(r.cells, width) {
 			errs.add(g.errAt(r.pos, -1, "", "%s", t.widthMsg(r, width)))
 			continue
 		}
@@ -386,6 +386,20 @@ func (t *table) number(s string) (float64, bool) {
 		return v, true
 	}
 	return parseNumber(s, true)
+}
+
+// emptyBeyond reports whether a row longer than the header has nothing in
+// its extra fields (trailing separators).
+func emptyBeyond(cells []string, width int) bool {
+	if len(cells) < width {
+		return false
+	}
+	for _, c := range cells[width:] {
+		if strings.TrimSpace(c) != "" {
+			return false
+		}
+	}
+	return true
 }
 
 // widthMsg says that a CSV row has another number of fields than the
@@ -460,6 +474,8 @@ func (t *table) readRow(r gridRow, site *forward.Site, opt Options, errs *proble
 		switch what, isNot := t.book.notNumber(r.pos, c); {
 		case value == "" && t.book.formulaWithoutResult(r.pos, c):
 			return bad("value", "the cell holds a formula but no saved result; open the workbook in a spreadsheet program and save it again")
+		case value == "":
+			return bad("value", "missing value; give the sample's value or remove its row")
 		case isNot:
 			return bad("value", "expected a number, got %s (%q)", what, value)
 		case decimalComma && strings.Contains(value, "."):
