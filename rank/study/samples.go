@@ -231,17 +231,13 @@ func (t *table) header(errs *problems) {
 				t.unused = append(t.unused, strconv.Quote(name))
 				continue
 			}
-			msg := fmt.Sprintf("unknown column %q (columns: sample, group, observable, value or d15n, unit, depth_cm, horizon, block, species, note)", name)
-			if len(hr.cells) == 1 && strings.ContainsAny(name, ",;\t") {
-				msg = fmt.Sprintf("unknown column %q: the separator of this file could not be told from its header", name)
-			}
-			errs.add(g.errAt(hr.pos, c, escapeText(name), "%s", msg))
+			errs.add(g.errAt(hr.pos, c, escapeText(name), "unknown column %q (columns: sample, group, observable, value or d15n, unit, depth_cm, horizon, block, species, note)", name))
 			continue
 		}
 		if prev, dup := t.col[role]; dup {
 			msg := fmt.Sprintf("column appears twice in the header (first as %s)", t.columnRef(prev))
 			if role == "value" && normHeader(name) != normHeader(cells[prev]) {
-				msg = "the header has both value and d15n; give the δ15N values in one column"
+				msg = fmt.Sprintf("the header has both %q and %q for the values; give them in one column", strings.TrimSpace(cells[prev]), name)
 			}
 			errs.add(g.errAt(hr.pos, c, escapeText(name), "%s", msg))
 			continue
