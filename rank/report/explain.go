@@ -302,6 +302,9 @@ func Observed(w io.Writer, st *study.Study) error {
 		site = fmt.Sprintf("%s (site %s)", st.SiteRef, st.Site.ID)
 	}
 	ew.printf("%s\nsite model: %s\n", title, site)
+	if st.Samples != nil {
+		ew.printf("%s\n", wrap("samples: "+st.Samples.String(), 78))
+	}
 	for _, c := range st.Comparisons {
 		ew.printf("\n%s\n\n", wrap(fmt.Sprintf("%s (treatment %q, control %q), %s", c.Name, c.Treatment, c.Control, when(c.Years)), 78))
 		if err := observedTable(ew, c.Observed); err != nil {

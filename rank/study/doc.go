@@ -1,5 +1,7 @@
-// Package study reads a study file (DESIGN §6) and its optional per-sample
-// CSV into observed shifts with standard errors.
+// Package study reads a study file (DESIGN §6) and its optional samples
+// file (CSV in a detected dialect, or an .xlsx workbook) into observed
+// shifts with standard errors. 15N atom percent is converted to δ15N with
+// R_AIR = 0.0036765 (AtomPercentConversion).
 //
 // A shift is treatment minus control: in ‰ for δ observables, and
 // ln(treatment/control) for pool sizes and fluxes. Its standard error is
@@ -8,6 +10,7 @@
 // control group's absolute values are kept so that the ranking can weight
 // how well a site model reproduces them.
 //
-// Every problem is an error naming the file, the 1-based line and the
-// field; nothing is skipped silently.
+// Every problem is an error naming the file, the 1-based line (for a
+// workbook the sheet and cell, CellError) and the field; nothing is skipped
+// silently.
 package study

@@ -10,9 +10,9 @@ import (
 	"strings"
 	"testing"
 
-	"nlens/forward"
 	"nlens/knowledge"
 	"nlens/knowledge/inputtest"
+	"nlens/rank/study/sampletest"
 )
 
 // Fuzzing the study file and samples CSV parsers (issue 5, item 3).
@@ -126,26 +126,19 @@ func FuzzParseStudy(f *testing.F) {
 }
 
 func FuzzParseSamples(f *testing.F) {
-	kb := knowledge.MustDefault()
 	// Sites the rows are checked against: none (the study's site failed),
 	// a template with a fungi pool and one without.
-	var sites []*forward.Site
-	for _, id := range []string{"temperate-deciduous-forest", "fertilized-cropland"} {
-		s, err := forward.LoadSite(id, kb)
-		if err != nil {
-			f.Fatal(err)
-		}
-		sites = append(sites, s)
-	}
+	sites := fuzzSites(f)
 	f.Fuzz(func(t *testing.T, data []byte, allowEnriched bool, siteChoice byte) {
-		var site *forward.Site
-		if k := int(siteChoice) % (len(sites) + 1); k > 0 {
-			site = sites[k-1]
-		}
+		site := sites[int(siteChoice)%len(sites)]
 		groups, _, err := ParseSamples(fuzzCSVFile, data, site, Options{AllowEnriched: allowEnriched})
 		if err != nil {
 			if groups != nil {
 				t.Errorf("ParseSamples returned groups and an error: %v", err)
+			}
+			checkMessageClean(t, err)
+			if fileKind(fuzzCSVFile, data) != "csv" {
+				return // a workbook (zip) or an old .xls: checked by FuzzParseSpreadsheet
 			}
 			checkPositioned(t, err, map[string][]byte{fuzzCSVFile: data})
 			for _, e := range knowledge.Flatten(err) {
@@ -317,7 +310,7 @@ func fuzzStudySeeds() map[string][]any {
 // without).
 func fuzzSamplesSeeds() map[string][]any {
 	const header = "sample,group,observable,value\n"
-	return map[string][]any{
+	seeds := map[string][]any{
 		"good":             {[]byte(fuzzSamples), false, byte(1)},
 		"good-no-site":     {[]byte(fuzzSamples), false, byte(0)},
 		"d15n-column":      {[]byte("sample,group,observable,d15n,species,note\ns1,a,foliage,1,Acer,\"a, note\"\ns2,a,foliage,2,Acer,\n"), false, byte(1)},
@@ -354,6 +347,29 @@ func fuzzSamplesSeeds() map[string][]any {
 		"invalid-utf8":     {[]byte(header + "s1,\xff,soil,1\ns2,\xff,soil,2\n"), false, byte(1)},
 		"nul":              {[]byte(header + "s1,a\x00,soil,1\n"), false, byte(1)},
 	}
+	// Dialects (issue 14): the lab table of dialect_test.go as each is
+	// written, and the ambiguous files.
+	semi := sampletest.CSV(labRows, sampletest.CSVOptions{Separator: ';', DecimalComma: true})
+	dialects := map[string][]byte{
+		"semicolon-decimal-comma": semi,
+		"bom-quoted-header":       sampletest.CSV(labRows, sampletest.CSVOptions{Encoding: sampletest.UTF8BOM, QuoteHeader: true}),
+		"utf16le-tabs":            sampletest.CSV(labRows, sampletest.CSVOptions{Separator: '\t', Encoding: sampletest.UTF16LE, LineEnd: "\r\n"}),
+		"utf16be":                 sampletest.CSV(labRows, sampletest.CSVOptions{Encoding: sampletest.UTF16BE}),
+		"utf16-no-bom":            sampletest.CSV(labRows, sampletest.CSVOptions{Encoding: sampletest.UTF16LE})[2:],
+		"utf16-odd":               sampletest.CSV(labRows, sampletest.CSVOptions{Encoding: sampletest.UTF16LE})[:101],
+		"cr-only":                 sampletest.CSV(labRows, sampletest.CSVOptions{LineEnd: "\r"}),
+		"windows-1252":            []byte(strings.ReplaceAll(string(semi), "permil", "\x89")),
+		"mixed-decimal-marks":     []byte(strings.Replace(string(semi), "4,25", "4.25", 1)),
+		"two-separators":          []byte("sample,group,observable,value\nsample;group;observable;value\ns1;a;soil;1\n"),
+		"atom-percent-depths":     []byte("sample,group,observable,value,unit,depth_cm,horizon\ns1,a,soil,0.3665,atom%,-5-0,Oa\ns2,a,soil,0.3668,at%,0-10,A\ns3,a,soil,0.3662,atom %,,Oi\n"),
+		"zip-magic":               []byte("PK\x03\x04\x14\x00"),
+		"xls-magic":               {0xD0, 0xCF, 0x11, 0xE0, 0xA1, 0xB1, 0x1A, 0xE1},
+		"escape-in-header":        []byte("sample,group,observable,value,\x1b[31mred\n"),
+	}
+	for name, data := range dialects {
+		seeds[name] = []any{data, false, byte(1)}
+	}
+	return seeds
 }
 
 // TestFuzzStudySeedCorpus and TestFuzzSamplesSeedCorpus keep the committed

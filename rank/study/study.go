@@ -38,6 +38,7 @@ type Study struct {
 	Context     rules.Context
 	Comparisons []Comparison
 	Warnings    []string
+	Samples     *SampleSource // how the samples file was read; nil without one
 }
 
 // Comparison is one treatment-versus-control contrast with its observed
@@ -152,7 +153,7 @@ type studyFile struct {
 	Site        *siteEntry                       `yaml:"site"`
 	Comparisons []comparisonEntry                `yaml:"comparisons"`
 	Groups      map[string]map[string]*statEntry `yaml:"groups"`
-	Samples     string                           `yaml:"samples"`
+	Samples     SamplesSpec                      `yaml:"samples"`
 }
 
 type siteEntry struct {
@@ -212,7 +213,7 @@ func Load(path string, kb *knowledge.Base, opt Options) (*Study, error) {
 	if err != nil {
 		return nil, &knowledge.InputError{File: path, Msg: fmt.Sprintf("cannot read study file: %v", err)}
 	}
-	return Parse(path, data, kb, opt, os.ReadFile)
+	return Parse(path, data, kb, opt, readInputFile)
 }
 
 // Parse reads a study from its text. readFile resolves the site file and
@@ -363,22 +364,19 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 	}
 	// Groups from the samples CSV.
 	samplesUnread := false // then groups it would define are not reported missing
-	if f.Samples != "" {
-		path := f.Samples
-		if !filepath.IsAbs(path) {
-			path = filepath.Join(dir, path)
-		}
-		cdata, err := readFile(path)
-		if err != nil {
-			bad("samples", []any{"samples"}, "cannot read samples file %s: %v", path, unwrapPathError(err))
+	if f.Samples.given() {
+		res, unread, err := f.Samples.load(doc, readFile, st.Site, opt)
+		switch {
+		case unread != nil:
+			errs = append(errs, unread)
 			samplesUnread = true
-		} else {
-			rows, warns, err := ParseSamples(path, cdata, st.Site, opt)
-			if err != nil {
-				return nil, err
-			}
-			st.Warnings = append(st.Warnings, warns...)
-			for _, r := range rows {
+		case err != nil:
+			return nil, err
+		default:
+			path := res.Source.File
+			st.Samples = &res.Source
+			st.Warnings = append(st.Warnings, res.Warnings...)
+			for _, r := range res.Groups {
 				if groups[r.Group] == nil {
 					groups[r.Group] = map[string]groupStat{}
 				}
