@@ -172,7 +172,6 @@ func Figure(w io.Writer, r *rank.Result, comparison int, kind, format string) er
 
 // figure is a stack of panels above a shared legend.
 type figure struct {
-	title  string
 	panels []*plot.Plot
 	// heights of the panels in points; aligned panels share the height.
 	heights []vg.Length
