@@ -90,7 +90,6 @@ func Simulate(s *Site, c Change, years *float64) (*Simulation, error) {
 	if err := sim.model.Steady(&sim.Base, true, &sim.Baseline); err != nil {
 		return nil, err
 	}
-	sim.Warnings = append(sim.Warnings, PoolWarnings(s, &sim.Baseline)...)
 	if years == nil {
 		err = sim.model.Steady(&sim.Changed, true, &sim.Then)
 	} else {

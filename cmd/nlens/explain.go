@@ -5,12 +5,12 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"os"
 	"strings"
 	"time"
 
 	"github.com/spf13/cobra"
 
+	"nlens/knowledge/input"
 	"nlens/rank"
 	"nlens/rank/report"
 	"nlens/rank/study"
@@ -152,9 +152,9 @@ func loadRules(e *env, paths []string) (*rules.Set, error) {
 		return nil, internal{err}
 	}
 	for _, p := range paths {
-		data, err := os.ReadFile(p)
+		data, err := input.Read(p, input.Rules)
 		if err != nil {
-			return nil, badf("cannot read rules file %s: %v", p, err)
+			return nil, err
 		}
 		files = append(files, rules.File{Name: p, Data: data})
 	}

@@ -11,6 +11,7 @@ import (
 
 	"nlens/forward"
 	"nlens/knowledge"
+	"nlens/knowledge/input"
 	"nlens/rules"
 )
 
@@ -137,11 +138,11 @@ type groupStat struct {
 
 // Load reads a study file from disk.
 func Load(path string, kb *knowledge.Base, opt Options) (*Study, error) {
-	data, err := os.ReadFile(path)
+	data, err := input.Read(path, input.Study)
 	if err != nil {
-		return nil, &knowledge.InputError{File: path, Msg: fmt.Sprintf("cannot read study file: %v", err)}
+		return nil, err
 	}
-	return Parse(path, data, kb, opt, os.ReadFile)
+	return Parse(path, data, kb, opt, func(p string) ([]byte, error) { return input.ReadFile(p, input.Named) })
 }
 
 // Parse reads a study from its text. readFile resolves the site file and
