@@ -198,3 +198,46 @@ func TestConditionNumberSurvivesWrapping(t *testing.T) {
 		}
 	}
 }
+
+// unbalancedSite is badSite with the denitrification rate doubled (4
+// instead of 2 kg N/ha/yr), so the file's pools are not the model's steady
+// state. By hand, with k = rate/pool: nitrate N = 2A/6 = A/3; plant P =
+// (3A + 4A/3)/0.23 = 18.841·A; organic O = 0.23P/0.023 = 10P; ammonium
+// 5 + 0.02·O = 5A gives A = 5/(5 − 3.7681) = 4.0588, so N = 1.3529,
+// P = 76.47, O = 764.7 kg N/ha: −24 %, −19 %, −32 %, −24 % from the file.
+func unbalancedSite(t *testing.T) string {
+	return edit(t, badSite, "to: out, rate: 2}", "to: out, rate: 4}")
+}
+
+// check, explain and simulate give the same steady-state pool warnings,
+// from one source (forward.Site.Warnings, set when the site is parsed),
+// each once (issue 15, item 5: check and explain dropped them).
+func TestSamePoolWarningsEverywhere(t *testing.T) {
+	want := []string{
+		`site "small": the steady-state organic pool is 764.7 kg N/ha, -24 % from the file's 1000`,
+		`site "small": the steady-state ammonium pool is 4.059 kg N/ha, -19 % from the file's 5`,
+		`site "small": the steady-state nitrate pool is 1.353 kg N/ha, -32 % from the file's 2`,
+		`site "small": the steady-state plant pool is 76.47 kg N/ha, -24 % from the file's 100`,
+	}
+	t.Chdir(t.TempDir())
+	writeFiles(t, map[string]string{"site.yaml": unbalancedSite(t), "study.yaml": siteStudy})
+	runs := map[string][]string{
+		"check":    {"check", "study.yaml"},
+		"explain":  {"explain", "study.yaml", "--format", "json", "--draws", "8"},
+		"simulate": {"simulate", "--site", "site.yaml", "--change", "nitrification=x2"},
+	}
+	for name, args := range runs {
+		var out, errb bytes.Buffer
+		if code := runEnv(&env{stdout: &out, stderr: &errb}, args); code != exitOK {
+			t.Fatalf("%s: exit %d: %s", name, code, errb.String())
+		}
+		// check wraps its warnings at 78 columns; JSON escapes quotes.
+		text := strings.Join(strings.Fields(out.String()+" "+errb.String()), " ")
+		text = strings.ReplaceAll(text, `\"`, `"`)
+		for _, w := range want {
+			if n := strings.Count(text, w); n != 1 {
+				t.Errorf("%s shows %q %d times, want once", name, w, n)
+			}
+		}
+	}
+}
