@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"math"
 	"strings"
 	"time"
 
@@ -89,11 +88,11 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 			return badInput{err}
 		}
 	}
-	if opt.draws < 1 || opt.draws > 100000 {
-		return badf("--draws must be between 1 and 100000, got %d", opt.draws)
+	if opt.draws < 1 || opt.draws > rank.MaxDrawsAbsolute {
+		return badf("--draws must be between 1 and %d, got %d", rank.MaxDrawsAbsolute, opt.draws)
 	}
-	if !(opt.modelError > 0) || math.IsInf(opt.modelError, 0) {
-		return badf("--model-error must be a positive number of ‰, got %g", opt.modelError)
+	if err := checkModelError(opt.modelError); err != nil {
+		return err
 	}
 	st, err := loadStudy(e, opt)
 	if err != nil {
@@ -101,6 +100,9 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	}
 	set, err := loadRules(e, opt.rulesFiles)
 	if err != nil {
+		return err
+	}
+	if err := checkDraws(opt.draws, st, set); err != nil {
 		return err
 	}
 	if ctx == nil {
@@ -117,6 +119,9 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 		return err
 	}
 	res.RulesFiles, res.Demo = opt.rulesFiles, opt.studyData != nil
+	if err := report.CheckFinite(res); err != nil {
+		return notFinite(err)
+	}
 	if err := report.WriteExplain(e.stdout, res, e.kb, opt.format); err != nil {
 		return err
 	}

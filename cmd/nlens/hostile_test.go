@@ -7,6 +7,7 @@ import (
 	"errors"
 	"os"
 	"path/filepath"
+	"regexp"
 	"slices"
 	"strings"
 	"testing"
@@ -238,6 +239,154 @@ func TestSamePoolWarningsEverywhere(t *testing.T) {
 			if n := strings.Count(text, w); n != 1 {
 				t.Errorf("%s shows %q %d times, want once", name, w, n)
 			}
+		}
+	}
+}
+
+// nonFinite matches a NaN or an infinity as Go, JSON encoders or YAML
+// write them.
+var nonFinite = regexp.MustCompile(`\bNaN\b|[+-]?Inf\b|\.nan\b|\.inf\b`)
+
+// sweepCase is one run of the NaN/Inf sweep: want is the exact stderr
+// (without "nlens: ") of a refusal with exit 1, or "" for a run that must
+// succeed with every number finite.
+type sweepCase struct {
+	args []string
+	want string
+}
+
+// The NaN/Inf sweep over flags (issue 15, items 2, 4 and 6): non-finite,
+// negative, zero and absurd values of every numeric flag of explain and
+// simulate are refused up front with exit 1 and a message naming the flag
+// and the allowed range; the largest allowed values run and print only
+// finite numbers. Ranges: --model-error (0, 100] ‰ and --years [0, 1e6]
+// (limits.go, where they are justified), --draws 1…100000 and its memory
+// cap, the bounds of --change, --add and --points (simulate.go).
+func TestFlagSweep(t *testing.T) {
+	const modelErr = "--model-error must be a number of ‰ above 0 and at most 100, got "
+	const years = "--years must be between 0 and 1e+06 (beyond that the matrix exponential loses accuracy; leave --years out for the new steady state), got "
+	explain := func(a ...string) []string {
+		return append([]string{"explain", "study.yaml", "--format", "json", "--draws", "8"}, a...)
+	}
+	simulate := func(a ...string) []string {
+		return append([]string{"simulate", "--site", "temperate-deciduous-forest", "--format", "json"}, a...)
+	}
+	cases := []sweepCase{
+		{explain("--model-error", "NaN"), modelErr + "NaN"},
+		{explain("--model-error", "+Inf"), modelErr + "+Inf"},
+		{explain("--model-error", "-Inf"), modelErr + "-Inf"},
+		{explain("--model-error", "0"), modelErr + "0"},
+		{explain("--model-error", "-0.5"), modelErr + "-0.5"},
+		{explain("--model-error", "1e154"), modelErr + "1e+154"},
+		{explain("--model-error", "100.5"), modelErr + "100.5"},
+		{explain("--model-error", "100"), ""},
+		{explain("--model-error", "1e-300"), ""},
+		{explain("--draws", "0"), "--draws must be between 1 and 100000, got 0"},
+		{explain("--draws", "100001"), "--draws must be between 1 and 100000, got 100001"},
+		{explain("--draws", "NaN"), `invalid argument "NaN" for "--draws" flag: strconv.ParseInt: parsing "NaN": invalid syntax (see nlens explain --help)`},
+		// badStudy's largest comparison has 2 observables: 13·(121·3 + 11·2)
+		// + (121·3 + 21·2) = 5410 floats, × 8 × 3 = 129 840 bytes per draw
+		// (126.8 KiB); 2 GiB / 129 840 = 16 539 draws (hand computation).
+		{explain("--draws", "100000"), "--draws 100000 would need about 12.1 GiB of memory for this study (126.8 KiB per draw); at most 16539 draws fit in the 2 GiB nlens allows"},
+		{simulate("--years", "NaN"), years + "NaN"},
+		{simulate("--years", "+Inf"), years + "+Inf"},
+		{simulate("--years", "-1"), years + "-1"},
+		{simulate("--years", "1e18"), years + "1e+18"},
+		{simulate("--years", "1e6"), ""},
+		{simulate("--years", "1e6", "--trajectory", "--points", "10000"), ""},
+		{simulate("--change", "nitrification=xNaN"), `--change "nitrification=xNaN": the factor must be a number ≥ 0, for example x3 or x0.5`},
+		{simulate("--change", "nitrification=xInf"), `--change "nitrification=xInf": the factor must be a number ≥ 0, for example x3 or x0.5`},
+		{simulate("--change", "nitrification=x1e300"), `--change "nitrification=x1e300": the factor must be 0 or between 1e-06 and 1e+06`},
+		{simulate("--change", "nitrification=x1e6", "--years", "1e6"), ""},
+		{simulate("--add", "urea=NaN"), `--add "urea=NaN": the rate must be a number of kg N/ha/yr ≥ 0`},
+		{simulate("--add", "urea=-Inf"), `--add "urea=-Inf": the rate must be a number of kg N/ha/yr ≥ 0`},
+		{simulate("--add", "urea=1e300"), `--add "urea=1e300": the rate must be 0 or between 1e-09 and 1e+06 kg N/ha/yr, as in a site file`},
+		{simulate("--add", "urea=80@NaN"), `--add "urea=80@NaN": δ15N after @ must be a number within ±100 ‰`},
+		{simulate("--add", "urea=80@Inf"), `--add "urea=80@Inf": δ15N after @ must be a number within ±100 ‰`},
+		{simulate("--add", "urea=1e6@100", "--years", "1e6"), ""},
+		{simulate("--trajectory", "--points", "0"), "--points must be between 2 and 10000, got 0"},
+	}
+	t.Chdir(t.TempDir())
+	writeFiles(t, map[string]string{"study.yaml": badStudy})
+	for _, tc := range cases {
+		t.Run(strings.Join(tc.args, " "), func(t *testing.T) {
+			var out, errb bytes.Buffer
+			code := runEnv(&env{stdout: &out, stderr: &errb}, tc.args)
+			if tc.want == "" {
+				if code != exitOK {
+					t.Fatalf("exit %d, want 0: %s", code, errb.String())
+				}
+				if m := nonFinite.FindString(out.String()); m != "" {
+					t.Errorf("the output holds %q", m)
+				}
+				return
+			}
+			if code != exitBadInput || errb.String() != "nlens: "+tc.want+"\n" || out.Len() > 0 {
+				t.Errorf("exit %d, stderr %q, %d bytes on stdout; want exit 1 and %q", code, errb.String(), out.Len(), "nlens: "+tc.want+"\n")
+			}
+		})
+	}
+}
+
+// Rules files and study values that drive the model out of range (issue
+// 15, item 2: a prior or multiplier of 1e308, a magnitude bound of 1e308, a
+// tracer mean of 1e155). Whether such a file is refused when read (exit 1,
+// with its position) or the run reaches a non-finite quantity and stops
+// (exit 2, naming it), nothing non-finite is ever printed and nothing
+// crashes.
+func TestNonFiniteNeverPrinted(t *testing.T) {
+	rulesFile := func(text string) map[string]string {
+		return map[string]string{"study.yaml": badStudy, "rules.yaml": text}
+	}
+	candidate := func(prior, max string) string {
+		return "candidates:\n  - id: denitrification-again\n    label: more denitrification\n" +
+			"    knob: {kind: scale, processes: [denitrification]}\n" +
+			"    magnitude: {prior: log-uniform, min: 0.1, max: " + max + ", unit: \"× rate\"}\n" +
+			"    prior: " + prior + "\n    mechanism: \"hostile\"\n    refs: []\n    tests: []\n"
+	}
+	rule := func(multiply string) string {
+		return "rules:\n  - id: hostile\n    when: {drainage: [well]}\n    candidates: [denitrification]\n" +
+			"    multiply: " + multiply + "\n    reason: \"hostile\"\n    status: common practice\n"
+	}
+	withRules := []string{"explain", "study.yaml", "--rules", "rules.yaml", "--draws", "8"}
+	tests := []struct {
+		name  string
+		files map[string]string
+		args  []string
+	}{
+		{"multiply 1e308", rulesFile(rule("1e308")), withRules},
+		{"multiply .inf", rulesFile(rule(".inf")), withRules},
+		{"multiply .nan", rulesFile(rule(".nan")), withRules},
+		{"prior 1e308", rulesFile(candidate("1e308", "10")), withRules},
+		{"prior .nan", rulesFile(candidate(".nan", "10")), withRules},
+		{"magnitude max 1e308", rulesFile(candidate("1", "1e308")), withRules},
+		{"magnitude max .inf", rulesFile(candidate("1", ".inf")), withRules},
+		{"tracer mean 1e155", map[string]string{"study.yaml": edit(t, badStudy, "foliage: {mean: 1.0, sd: 0.8", "foliage: {mean: 1e155, sd: 0.8")},
+			[]string{"explain", "study.yaml", "--allow-enriched", "--draws", "8"}},
+	}
+	for _, tt := range tests {
+		for _, format := range []string{"table", "text", "markdown", "json"} {
+			t.Run(tt.name+" "+format, func(t *testing.T) {
+				t.Chdir(t.TempDir())
+				writeFiles(t, tt.files)
+				var out, errb bytes.Buffer
+				code := runEnv(&env{stdout: &out, stderr: &errb}, append(tt.args, "--format", format))
+				if m := nonFinite.FindString(out.String()); m != "" {
+					t.Errorf("exit %d and the output holds %q", code, m)
+				}
+				if strings.Contains(errb.String(), "goroutine ") || strings.Contains(errb.String(), "panic") {
+					t.Errorf("a crash: %s", errb.String())
+				}
+				switch code {
+				case exitOK, exitBadInput:
+				case exitInternal:
+					if !strings.Contains(errb.String(), "is not a finite number, so nothing was printed: ") || out.Len() > 0 {
+						t.Errorf("exit 2 without naming the quantity, or with output: %s", errb.String())
+					}
+				default:
+					t.Errorf("exit %d", code)
+				}
+			})
 		}
 	}
 }

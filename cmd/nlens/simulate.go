@@ -83,8 +83,8 @@ func runSimulate(e *env, opt simulateOptions) error {
 	}
 	var years *float64
 	if opt.yearsSet {
-		if !(opt.years >= 0) || math.IsInf(opt.years, 0) {
-			return badf("--years must be a finite number ≥ 0, got %g", opt.years)
+		if err := checkYears(opt.years); err != nil {
+			return err
 		}
 		years = &opt.years
 	}
@@ -119,6 +119,9 @@ func runSimulate(e *env, opt simulateOptions) error {
 		if err != nil {
 			return err
 		}
+	}
+	if err := report.CheckFinite(sim); err != nil {
+		return notFinite(err)
 	}
 	return report.Simulation(e.stdout, sim, ro)
 }
@@ -163,7 +166,7 @@ func parseChange(site *forward.Site, e *env, changes, adds []string) (forward.Ch
 		}
 		if hasD {
 			d, err := strconv.ParseFloat(d15nText, 64)
-			if err != nil || math.Abs(d) > 100 {
+			if err != nil || !(math.Abs(d) <= 100) {
 				return c, "", badf("--add %q: δ15N after @ must be a number within ±100 ‰", s)
 			}
 			in.D15N = d

@@ -86,10 +86,10 @@ type tooLarge struct {
 }
 
 func (e tooLarge) Error() string {
-	held, limit := "more than "+sizeText(e.max), sizeText(e.max)
+	held, limit := "more than "+SizeText(e.max), SizeText(e.max)
 	switch {
 	case e.size >= 2*e.max:
-		held = sizeText(e.size)
+		held = SizeText(e.size)
 	case e.size > 0: // near the cap: rounding would hide the difference
 		held, limit = fmt.Sprintf("%d bytes", e.size), fmt.Sprintf("%s (%d bytes)", limit, e.max)
 	}
@@ -98,8 +98,8 @@ func (e tooLarge) Error() string {
 
 func (e tooLarge) Is(target error) bool { return target == ErrTooLarge }
 
-// sizeText writes a byte count in binary units: "512 B", "4 MiB", "9.3 GiB".
-func sizeText(n int64) string {
+// SizeText writes a byte count in binary units: "512 B", "4 MiB", "9.3 GiB".
+func SizeText(n int64) string {
 	units := []string{"B", "KiB", "MiB", "GiB", "TiB", "PiB", "EiB"}
 	v, u := float64(n), 0
 	for v >= 1024 && u < len(units)-1 {

@@ -104,8 +104,8 @@ func TestReadFileStopsAtCapWhileReading(t *testing.T) {
 func TestSizeText(t *testing.T) {
 	t.Parallel()
 	for n, want := range map[int64]string{0: "0 B", 1023: "1023 B", 1024: "1 KiB", 1536: "1.5 KiB", 4 << 20: "4 MiB", 10 << 30: "10 GiB"} {
-		if got := sizeText(n); got != want {
-			t.Errorf("sizeText(%d) = %q, want %q", n, got, want)
+		if got := SizeText(n); got != want {
+			t.Errorf("SizeText(%d) = %q, want %q", n, got, want)
 		}
 	}
 }
