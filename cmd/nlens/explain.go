@@ -46,7 +46,10 @@ Formats: table (default, for a terminal), text (a plain-text summary to
 paste into an e-mail), markdown (the full report with a discussion draft,
 cautions, methods and references) and json (for scripts). --out DIR writes
 the full report into DIR: report.md, result.json, references.bib and the
-figures as SVG and PNG; an existing non-empty DIR needs --force.`),
+figures as SVG and PNG; an existing non-empty DIR needs --force (your other
+files in it are kept). DIR is replaced whole, so it holds the previous
+report or the new one, never a mix, and a second run on the same DIR at the
+same time is refused.`),
 		Example: strings.TrimSpace(`
   nlens explain study.yaml
   nlens explain study.yaml --format text
@@ -83,16 +86,21 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	if opt.force && opt.out == "" {
 		return badf("--force applies only with --out DIR")
 	}
-	if opt.out != "" {
-		if err := report.CheckOutDir(opt.out, opt.force); err != nil {
-			return badInput{err}
-		}
-	}
 	if opt.draws < 1 || opt.draws > rank.MaxDrawsAbsolute {
 		return badf("--draws must be between 1 and %d, got %d", rank.MaxDrawsAbsolute, opt.draws)
 	}
 	if err := checkModelError(opt.modelError); err != nil {
 		return err
+	}
+	var out *report.OutDir
+	if opt.out != "" {
+		// Reserved (checked, locked, cleaned of an interrupted run's
+		// leftovers) before any computation, released at the end.
+		var err error
+		if out, err = report.ReserveOutDir(opt.out, opt.force); err != nil {
+			return badInput{err}
+		}
+		defer out.Release()
 	}
 	st, err := loadStudy(e, opt)
 	if err != nil {
@@ -125,10 +133,10 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	if err := report.WriteExplain(e.stdout, res, e.kb, opt.format); err != nil {
 		return err
 	}
-	if opt.out == "" {
+	if out == nil {
 		return nil
 	}
-	names, err := report.WriteBundle(opt.out, res, e.kb, report.BundleOptions{Force: opt.force})
+	names, err := out.Write(res, e.kb)
 	var dirErr *report.OutDirError
 	if errors.As(err, &dirErr) {
 		return badInput{err}

@@ -15,6 +15,7 @@ import (
 	"nlens/forward"
 	"nlens/knowledge"
 	"nlens/knowledge/inputtest"
+	"nlens/rank/report"
 	"nlens/rank/study"
 )
 
@@ -388,5 +389,42 @@ func TestNonFiniteNeverPrinted(t *testing.T) {
 				}
 			})
 		}
+	}
+}
+
+// --out problems are found before any computation (issue 15, item 10):
+// exit 1, the path named, nothing on stdout (the result is not printed
+// first) and nothing written.
+func TestOutCheckedFirst(t *testing.T) {
+	t.Chdir(t.TempDir())
+	writeFiles(t, map[string]string{"study.yaml": badStudy, "file.txt": "x"})
+	if err := os.Symlink("nowhere", "dangling"); err != nil {
+		t.Fatal(err)
+	}
+	held, err := report.ReserveOutDir("busy", false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer held.Release()
+	tests := []struct {
+		out, want string
+	}{
+		{"dangling", "output directory dangling: a symbolic link to nowhere, which does not exist"},
+		{"file.txt", "output directory file.txt: exists and is not a directory"},
+		{"file.txt/report", "output directory file.txt/report: file.txt is not a directory"},
+		{"busy", "output directory busy: another nlens run is writing it"},
+	}
+	for _, tt := range tests {
+		t.Run(tt.out, func(t *testing.T) {
+			before := inputtest.ListDir(t, ".")
+			var out, errb bytes.Buffer
+			code := runEnv(&env{stdout: &out, stderr: &errb}, []string{"explain", "study.yaml", "--draws", "8", "--out", tt.out})
+			if code != exitBadInput || errb.String() != "nlens: "+tt.want+"\n" || out.Len() > 0 {
+				t.Errorf("exit %d, stderr %q, %d bytes on stdout; want exit 1 and %q", code, errb.String(), out.Len(), tt.want)
+			}
+			if after := inputtest.ListDir(t, "."); !slices.Equal(after, before) {
+				t.Errorf("the run changed the folder: %v → %v", before, after)
+			}
+		})
 	}
 }
