@@ -130,7 +130,7 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	if err := report.CheckFinite(res); err != nil {
 		return notFinite(err)
 	}
-	if err := report.WriteExplain(e.stdout, res, e.kb, opt.format); err != nil {
+	if err := report.WriteExplain(humanOut(e.stdout, opt.format), res, e.kb, opt.format); err != nil {
 		return err
 	}
 	if out == nil {
@@ -191,7 +191,7 @@ Welch standard errors) that explain would work with.`),
 				if err != nil {
 					return err
 				}
-				return report.Observed(e.stdout, st)
+				return report.Observed(humanOut(e.stdout, report.FormatTable), st)
 			})
 		},
 	}

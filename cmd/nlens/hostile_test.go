@@ -428,3 +428,58 @@ func TestOutCheckedFirst(t *testing.T) {
 		})
 	}
 }
+
+// rawControl matches what must never reach a terminal from a user's file:
+// C0 controls other than line feed, DEL, C1 controls, and the zero-width
+// and bidirectional format characters used in the test below.
+var rawControl = regexp.MustCompile("[\x00-\x09\x0b-\x1f\x7f\u0080-\u009f\u200b\u202e]")
+
+// Control characters in a study's title, group names and comparison name
+// and in a samples CSV's header (issue 15, item 8) reach no output raw:
+// check, every human-readable explain format, the bundle's report.md and
+// an error message show them as escapes (\x1b, \u202e). YAML's double-
+// quoted escapes put ESC (\e), BEL (\a), CR (\r), a C1 CSI (\x9b), a zero-
+// width space (\u200b) and a right-to-left override (\u202e) in the text.
+func TestControlCharactersEscaped(t *testing.T) {
+	evil := edit(t, badStudy,
+		"title: bad-input table base study", `title: "Trial \e[2J\e]0;owned\a\rover \u200b\u202eevil"`,
+		"  - name: fertilized vs control", `  - name: "fertilized \x9b31m vs control"`,
+		"    control: control", `    control: "control\e[31m"`,
+		"groups:\n  control:", "groups:\n  \"control\\e[31m\":")
+	t.Chdir(t.TempDir())
+	writeFiles(t, map[string]string{"study.yaml": evil, "csv.yaml": csvStudy,
+		"samples.csv": strings.Replace(badSamples, "sample,group", "sample\x1b[2J,group", 1)})
+	runs := [][]string{
+		{"check", "study.yaml"},
+		{"explain", "study.yaml", "--draws", "8"},
+		{"explain", "study.yaml", "--draws", "8", "--format", "text"},
+		{"explain", "study.yaml", "--draws", "8", "--format", "markdown", "--out", "bundle"},
+		{"check", "csv.yaml"},
+	}
+	for _, args := range runs {
+		var out, errb bytes.Buffer
+		code := runEnv(&env{stdout: &out, stderr: &errb}, args)
+		if m := rawControl.FindString(out.String() + errb.String()); m != "" {
+			t.Errorf("%v: the output holds %q raw", args, m)
+		}
+		switch args[1] {
+		case "study.yaml":
+			if code != exitOK || !strings.Contains(out.String(), `Trial \x1b`) || !strings.Contains(out.String(), `\u202eevil`) {
+				t.Errorf("%v: exit %d; the escaped title is missing:\n%s%s", args, code, out.String(), errb.String())
+			}
+		case "csv.yaml":
+			// The samples reader lower-cases column names.
+			want := `nlens: samples.csv:1: sample\x1b[2j: unknown column "sample\x1b[2j"`
+			if code != exitBadInput || !strings.HasPrefix(errb.String(), want) {
+				t.Errorf("%v: exit %d, stderr %q; want exit 1 and %q…", args, code, errb.String(), want)
+			}
+		}
+	}
+	md, err := os.ReadFile(filepath.Join("bundle", "report.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m := rawControl.FindString(string(md)); m != "" {
+		t.Errorf("report.md holds %q raw", m)
+	}
+}

@@ -105,7 +105,7 @@ func runSimulate(e *env, opt simulateOptions) error {
 		return err
 	}
 	for _, w := range sim.Warnings {
-		fmt.Fprintln(e.stderr, "warning:", w)
+		fmt.Fprintln(e.stderr, "warning:", report.EscapeText(w))
 	}
 	if names := undefinedAfterChange(sim); len(names) > 0 {
 		fmt.Fprintf(e.stderr, "warning: undefined after the change (no N left in the pool or flux, so no δ): %s; left out of the output\n", strings.Join(names, ", "))
@@ -123,7 +123,7 @@ func runSimulate(e *env, opt simulateOptions) error {
 	if err := report.CheckFinite(sim); err != nil {
 		return notFinite(err)
 	}
-	return report.Simulation(e.stdout, sim, ro)
+	return report.Simulation(humanOut(e.stdout, opt.format), sim, ro)
 }
 
 // parseChange turns --change and --add values into a forward.Change and a

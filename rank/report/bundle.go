@@ -427,7 +427,7 @@ func WriteBundle(dir string, r *rank.Result, kb *knowledge.Base, opt BundleOptio
 func renderBundle(r *rank.Result, kb *knowledge.Base) (map[string][]byte, error) {
 	files := map[string][]byte{}
 	md, refs := markdownReport(r, kb, MarkdownOptions{Figures: true})
-	files[BundleReport] = []byte(md)
+	files[BundleReport] = []byte(EscapeText(md))
 	var buf bytes.Buffer
 	if err := JSON(&buf, r); err != nil {
 		return nil, fmt.Errorf("render %s: %w", BundleResult, err)
