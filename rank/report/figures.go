@@ -18,7 +18,6 @@ import (
 
 	"nlens/knowledge"
 	"nlens/rank"
-	"nlens/rules"
 )
 
 // Figure kinds: the three figures drawn for each comparison.
@@ -517,7 +516,7 @@ func pathsToDraw(c rank.ComparisonResult) []drawnPath {
 	hs, styles, ranks := leadingStyles(c)
 	var out []drawnPath
 	for j, h := range hs {
-		if h.ID == rules.None {
+		if h.ID == rank.NoneID {
 			continue
 		}
 		for _, p := range c.Paths {

@@ -11,7 +11,6 @@ import (
 	"nlens/knowledge"
 	"nlens/rank"
 	"nlens/rank/study"
-	"nlens/rules"
 )
 
 // This file turns numbers of a rank.Result into words for the e-mail text
@@ -216,10 +215,10 @@ func newNamer(kb *knowledge.Base, c rank.ComparisonResult) namer {
 
 // sourceName is a source's label without its parenthetical detail.
 func (n namer) sourceName(id string) string {
-	if s, ok := n.kb.Source(strings.TrimPrefix(id, rules.SourcePrefix)); ok {
+	if s, ok := n.kb.Source(strings.TrimPrefix(id, rank.SourcePrefix)); ok {
 		return cutParen(s.Label)
 	}
-	return strings.TrimPrefix(id, rules.SourcePrefix)
+	return strings.TrimPrefix(id, rank.SourcePrefix)
 }
 
 // cutParen drops a trailing parenthetical: "nitrate fertilizer (Ca, K or Na
@@ -245,7 +244,7 @@ func (n namer) process(id string) string {
 // manure", "the declared ammonium fertilizer addition".
 func (n namer) name(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
-		if h.ID == rules.None {
+		if h.ID == rank.NoneID {
 			return "no change in N cycling"
 		}
 		return h.Label
@@ -259,7 +258,7 @@ func (n namer) name(h rank.Hypothesis) string {
 
 func (n namer) part(m rank.Magnitude) string {
 	switch {
-	case strings.HasPrefix(m.Candidate, rules.SourcePrefix):
+	case strings.HasPrefix(m.Candidate, rank.SourcePrefix):
 		if m.Fixed {
 			return "the declared " + n.sourceName(m.Candidate) + " addition"
 		}
