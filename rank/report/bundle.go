@@ -450,6 +450,29 @@ func renderBundle(r *rank.Result, kb *knowledge.Base) (map[string][]byte, error)
 	return files, nil
 }
 
+// copyFile copies the regular file src to a new file dst, streaming, and
+// syncs it.
+func copyFile(src, dst string, perm fs.FileMode) error {
+	in, err := os.Open(src)
+	if err != nil {
+		return err
+	}
+	defer in.Close()
+	out, err := os.OpenFile(dst, os.O_WRONLY|os.O_CREATE|os.O_EXCL, perm)
+	if err != nil {
+		return err
+	}
+	if _, err := io.Copy(out, in); err != nil {
+		out.Close()
+		return err
+	}
+	if err := out.Sync(); err != nil {
+		out.Close()
+		return err
+	}
+	return out.Close()
+}
+
 // writeFile writes data to a new file and syncs it to disk.
 func writeFile(path string, data []byte) error {
 	f, err := os.OpenFile(path, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
@@ -546,14 +569,7 @@ func mirror(src, dst string) error {
 		if os.Link(src, dst) == nil {
 			return nil
 		}
-		data, err := os.ReadFile(src)
-		if err != nil {
-			return err
-		}
-		if err := writeFile(dst, data); err != nil {
-			return err
-		}
-		return os.Chmod(dst, fi.Mode().Perm())
+		return copyFile(src, dst, fi.Mode().Perm())
 	}
 	return fmt.Errorf("%s is not a file, folder or link, so nlens cannot carry it into the new bundle; move it elsewhere", src)
 }

@@ -423,3 +423,24 @@ func TestForceCarriesUserFiles(t *testing.T) {
 		t.Errorf("left %v", l)
 	}
 }
+
+// Where a hard link is impossible, a user's file is copied with its
+// permissions.
+func TestCopyFile(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	src, dst := filepath.Join(dir, "a.txt"), filepath.Join(dir, "b.txt")
+	if err := os.WriteFile(src, []byte("mine\n"), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	if err := copyFile(src, dst, 0o600); err != nil {
+		t.Fatal(err)
+	}
+	fi, err := os.Stat(dst)
+	if err != nil || fi.Mode().Perm() != 0o600 || readFile(t, dst) != "mine\n" {
+		t.Errorf("copy: %v %v %q", fi, err, readFile(t, dst))
+	}
+	if err := copyFile(src, dst, 0o600); err == nil {
+		t.Error("copying over an existing file should fail")
+	}
+}
