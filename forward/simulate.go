@@ -36,8 +36,10 @@ func SourceInputs(s *Site, kb *knowledge.Base, source string, rate float64) ([]I
 // Simulation is a site's baseline steady state and its state after a change,
 // either t years later or at the new steady state.
 type Simulation struct {
-	Site   *Site
-	Change Change
+	Site *Site
+	// Change is what was applied; its windows may end at +Inf (sustained),
+	// so the finiteness guard of the renderers skips it.
+	Change Change `finite:"-"`
 	Years  *float64 // nil: the new steady state
 	// Base are the baseline parameters; Changed those in force at the
 	// observation time (or in the final regime).
@@ -60,7 +62,6 @@ func Simulate(s *Site, c Change, years *float64) (*Simulation, error) {
 	if err := sim.model.Steady(&sim.Base, true, &sim.Baseline); err != nil {
 		return nil, err
 	}
-	sim.Warnings = append(sim.Warnings, PoolWarnings(s, &sim.Baseline)...)
 	var r Run
 	var err error
 	if years == nil {

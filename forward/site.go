@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"nlens/knowledge"
+	"nlens/knowledge/input"
 )
 
 // PoolNames lists the pools a site may define, in the fixed order used for
@@ -162,12 +163,12 @@ func LoadSite(idOrPath string, kb *knowledge.Base) (*Site, error) {
 	if t, ok := kb.Site(idOrPath); ok {
 		return ParseSite(t.Name, t.Data, kb)
 	}
-	data, err := os.ReadFile(idOrPath)
+	data, err := input.ReadFile(idOrPath, input.Site)
 	if err != nil {
 		if os.IsNotExist(err) && !strings.ContainsAny(idOrPath, "/\\.") {
 			return nil, &knowledge.InputError{File: idOrPath, Msg: fmt.Sprintf("no built-in site template or file of that name (templates: %s)", strings.Join(kb.SiteIDs(), ", "))}
 		}
-		return nil, &knowledge.InputError{File: idOrPath, Msg: fmt.Sprintf("cannot read site file: %v", err)}
+		return nil, input.ReadError(input.Site, err)
 	}
 	return ParseSite(idOrPath, data, kb)
 }
@@ -393,8 +394,9 @@ func ParseSite(file string, data []byte, kb *knowledge.Base) (site *Site, err er
 	p := s.Params()
 	var x State
 	if err := NewModel(s).Steady(&p, false, &x); err != nil {
-		return nil, doc.Errorf("transfers", []any{"transfers"}, "%v", err)
+		return nil, doc.WrapAt([]any{"transfers"}, err)
 	}
+	s.Warnings = append(s.Warnings, PoolWarnings(s, &x)...)
 	return s, nil
 }
 

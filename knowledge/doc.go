@@ -18,6 +18,6 @@
 // (a rule of thumb of the trade with no single source).
 //
 // The package only looks facts up and validates them; it computes nothing.
-// Its Decode and InputError are the positioned YAML decoding that every input
+// Its YAML files are decoded by package knowledge/input, which every input
 // file of nlens goes through.
 package knowledge

@@ -92,8 +92,10 @@ type engine struct {
 	treated bool
 	// stream seeds this unit's random streams.
 	stream uint64
-	// fit is the site fitted to the controls (nil when not fitted).
-	fit *SiteFit
+	// fit is the site fitted to the controls (nil when not fitted);
+	// siteWarnings are the study's site file's own warnings.
+	fit          *SiteFit
+	siteWarnings []string
 	// trs are the parts' treatments and lhs the stratified design the
 	// draws come from (kept so that grow can add draws).
 	trs []forward.Treatment
@@ -389,7 +391,7 @@ func (e *engine) setup(w *worker, seedStream uint64) error {
 		}
 		e.warnf("the control's absolute %s differs from the %s site model by %+.1f%s even in the closest draw: the model is used for shifts, but its baseline is not this site's; consider a site file fitted to it", e.worstName, e.site.ID, e.worstDiff, unit)
 	}
-	for _, p := range e.site.Warnings {
+	for _, p := range e.siteWarnings {
 		e.warnf("%s", p)
 	}
 	return nil

@@ -304,7 +304,7 @@ func newEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt 
 		return nil, err
 	}
 	first := &st.Comparisons[u.idx[0]]
-	e := &engine{site: site, kb: kb, set: set, opt: opt, ctx: st.ContextFor(first, kb), fit: fit}
+	e := &engine{site: site, kb: kb, set: set, opt: opt, ctx: st.ContextFor(first, kb), fit: fit, siteWarnings: st.Site.Warnings}
 	for _, w := range fitWarn {
 		e.warnf("%s", w)
 	}

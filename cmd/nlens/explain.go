@@ -4,13 +4,12 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"math"
-	"os"
 	"strings"
 	"time"
 
 	"github.com/spf13/cobra"
 
+	"nlens/knowledge/input"
 	"nlens/rank"
 	"nlens/rank/report"
 	"nlens/rank/study"
@@ -49,7 +48,10 @@ Formats: table (default, for a terminal), text (a plain-text summary to
 paste into an e-mail), markdown (the full report with a discussion draft,
 cautions, methods and references) and json (for scripts). --out DIR writes
 the full report into DIR: report.md, result.json, references.bib and the
-figures as SVG and PNG; an existing non-empty DIR needs --force.`),
+figures as SVG and PNG; an existing non-empty DIR needs --force (your other
+files in it are kept). DIR is replaced whole, so it holds the previous
+report or the new one, never a mix, and a second run on the same DIR at the
+same time is refused.`),
 		Example: strings.TrimSpace(`
   nlens explain study.yaml
   nlens explain study.yaml --format text
@@ -89,16 +91,21 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	if opt.force && opt.out == "" {
 		return badf("--force applies only with --out DIR")
 	}
+	if opt.draws < 1 || opt.draws > rank.MaxDrawsAbsolute {
+		return badf("--draws must be between 1 and %d, got %d", rank.MaxDrawsAbsolute, opt.draws)
+	}
+	if err := checkModelError(opt.modelError); err != nil {
+		return err
+	}
+	var out *report.OutDir
 	if opt.out != "" {
-		if err := report.CheckOutDir(opt.out, opt.force); err != nil {
+		// Reserved (checked, locked, cleaned of an interrupted run's
+		// leftovers) before any computation, released at the end.
+		var err error
+		if out, err = report.ReserveOutDir(opt.out, opt.force); err != nil {
 			return badInput{err}
 		}
-	}
-	if opt.draws < 1 || opt.draws > 100000 {
-		return badf("--draws must be between 1 and 100000, got %d", opt.draws)
-	}
-	if !(opt.modelError > 0) || math.IsInf(opt.modelError, 0) {
-		return badf("--model-error must be a positive number of ‰, got %g", opt.modelError)
+		defer out.Release()
 	}
 	st, err := loadStudy(e, opt)
 	if err != nil {
@@ -106,6 +113,9 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	}
 	set, err := loadRules(e, opt.rulesFiles)
 	if err != nil {
+		return err
+	}
+	if err := checkDraws(opt.draws, st, set); err != nil {
 		return err
 	}
 	if ctx == nil {
@@ -125,13 +135,16 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 		return err
 	}
 	res.RulesFiles, res.Demo = opt.rulesFiles, opt.studyData != nil
-	if err := report.WriteExplain(e.stdout, res, e.kb, opt.format); err != nil {
+	if err := report.CheckFinite(res); err != nil {
+		return notFinite(err)
+	}
+	if err := report.WriteExplain(humanOut(e.stdout, opt.format), res, e.kb, opt.format); err != nil {
 		return err
 	}
-	if opt.out == "" {
+	if out == nil {
 		return nil
 	}
-	names, err := report.WriteBundle(opt.out, res, e.kb, report.BundleOptions{Force: opt.force})
+	names, err := out.Write(res, e.kb)
 	var dirErr *report.OutDirError
 	if errors.As(err, &dirErr) {
 		return badInput{err}
@@ -160,9 +173,9 @@ func loadRules(e *env, paths []string) (*rules.Set, error) {
 		return nil, internal{err}
 	}
 	for _, p := range paths {
-		data, err := os.ReadFile(p)
+		data, err := input.Read(p, input.Rules)
 		if err != nil {
-			return nil, badf("cannot read rules file %s: %v", p, err)
+			return nil, err
 		}
 		files = append(files, rules.File{Name: p, Data: data})
 	}
@@ -186,7 +199,7 @@ Welch standard errors) that explain would work with.`),
 				if err != nil {
 					return err
 				}
-				return report.Observed(e.stdout, st)
+				return report.Observed(humanOut(e.stdout, report.FormatTable), st)
 			})
 		},
 	}

@@ -10,6 +10,7 @@ import (
 
 	"nlens/forward"
 	"nlens/knowledge"
+	"nlens/rank/report"
 )
 
 // version is printed by --version and written into reports.
@@ -72,7 +73,7 @@ func runEnv(e *env, args []string) int {
 	if code == exitInternal {
 		prefix = "nlens: internal error: "
 	}
-	fmt.Fprintf(e.stderr, "%s%s\n", prefix, err)
+	fmt.Fprintf(e.stderr, "%s%s\n", prefix, report.EscapeText(err.Error()))
 	return code
 }
 

@@ -112,8 +112,8 @@ func runSimulate(e *env, opt simulateOptions) error {
 	}
 	var years *float64
 	if opt.yearsSet {
-		if !(opt.years >= 0) || math.IsInf(opt.years, 0) {
-			return badf("--years must be a finite number ≥ 0, got %g", opt.years)
+		if err := checkYears(opt.years); err != nil {
+			return err
 		}
 		years = &opt.years
 	}
@@ -141,7 +141,7 @@ func runSimulate(e *env, opt simulateOptions) error {
 		return err
 	}
 	for _, w := range sim.Warnings {
-		fmt.Fprintln(e.stderr, "warning:", w)
+		fmt.Fprintln(e.stderr, "warning:", report.EscapeText(w))
 	}
 	if names := undefinedAfterChange(sim); len(names) > 0 {
 		fmt.Fprintf(e.stderr, "warning: undefined after the change (no N left in the pool or flux, so no δ): %s; left out of the output\n", strings.Join(names, ", "))
@@ -156,7 +156,10 @@ func runSimulate(e *env, opt simulateOptions) error {
 			return err
 		}
 	}
-	return report.Simulation(e.stdout, sim, ro)
+	if err := report.CheckFinite(sim); err != nil {
+		return notFinite(err)
+	}
+	return report.Simulation(humanOut(e.stdout, opt.format), sim, ro)
 }
 
 // parseChange turns the change flags into a forward.Change on the site

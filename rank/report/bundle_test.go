@@ -6,26 +6,12 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
-	"sort"
 	"strings"
 	"testing"
 
+	"nlens/knowledge/inputtest"
 	"nlens/rank"
 )
-
-func listDir(t *testing.T, dir string) []string {
-	t.Helper()
-	entries, err := os.ReadDir(dir)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var names []string
-	for _, e := range entries {
-		names = append(names, e.Name())
-	}
-	sort.Strings(names)
-	return names
-}
 
 func readFile(t *testing.T, path string) string {
 	t.Helper()
@@ -83,7 +69,7 @@ func TestWriteBundle(t *testing.T) {
 			if got := strings.Join(names, " "); got != tc.want {
 				t.Errorf("wrote %s\nwant %s", got, tc.want)
 			}
-			if got := strings.Join(listDir(t, dir), " "); got != tc.want {
+			if got := strings.Join(inputtest.ListDir(t, dir), " "); got != tc.want {
 				t.Errorf("directory holds %s\nwant %s", got, tc.want)
 			}
 			checkBundle(t, dir, tc.r)
@@ -106,7 +92,7 @@ func TestWriteBundleRefusesNonEmptyDir(t *testing.T) {
 	if !strings.Contains(err.Error(), dir) || !strings.Contains(err.Error(), "--force") {
 		t.Errorf("error %q should name the directory and --force", err)
 	}
-	if got := strings.Join(listDir(t, dir), " "); got != "notes.txt" {
+	if got := strings.Join(inputtest.ListDir(t, dir), " "); got != "notes.txt" {
 		t.Errorf("directory now holds %s, want only notes.txt", got)
 	}
 }
@@ -132,7 +118,7 @@ func TestWriteBundleForce(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := "measurements.png measurements.svg notes.txt references.bib report.md result.json shifts.png shifts.svg trajectories.png trajectories.svg"
-	if got := strings.Join(listDir(t, dir), " "); got != want {
+	if got := strings.Join(inputtest.ListDir(t, dir), " "); got != want {
 		t.Errorf("directory holds %s\nwant %s", got, want)
 	}
 	checkBundle(t, dir, r)
@@ -152,17 +138,18 @@ func TestWriteBundleBadDir(t *testing.T) {
 }
 
 // TestWriteBundleNothingOnFailure: a result that cannot be drawn (a
-// comparison without observed shifts) fails before anything is written.
+// comparison without observed shifts) fails before anything is written,
+// and the folders made above the output directory are removed again.
 func TestWriteBundleNothingOnFailure(t *testing.T) {
 	t.Parallel()
 	r := transientResult()
 	r.Comparisons[0].Observed = nil
-	dir := filepath.Join(t.TempDir(), "out")
-	if _, err := WriteBundle(dir, r, testKB(t), BundleOptions{}); err == nil {
+	top := t.TempDir()
+	if _, err := WriteBundle(filepath.Join(top, "out", "nested"), r, testKB(t), BundleOptions{}); err == nil {
 		t.Fatal("WriteBundle succeeded on a result it cannot draw")
 	}
-	if _, err := os.Stat(dir); !errors.Is(err, os.ErrNotExist) {
-		t.Errorf("the output directory was created (stat: %v)", err)
+	if got := inputtest.ListDir(t, top); len(got) > 0 {
+		t.Errorf("left behind %v", got)
 	}
 }
 

@@ -8,7 +8,7 @@ import (
 )
 
 // Citations in the Markdown report are written in two passes. In the
-// first, cite and citeIn leave a marker holding the reference keys; once
+// first, cite leaves a marker holding the reference keys; once
 // the whole text is known, labelRefs decides each reference's label and
 // the second pass writes the labels. Two works whose author–year forms
 // coincide ("Craine et al. 2015" for craine2015 and craine2015b) get the
@@ -37,9 +37,6 @@ type citer struct {
 // unknown keys are dropped (the knowledge base checks every key at load, so
 // this only guards hand-built results) and no keys give "".
 func (c citer) cite(keys ...string) string { return c.mark(markOpen, keys) }
-
-// citeIn is cite for use inside an existing parenthesis.
-func (c citer) citeIn(keys ...string) string { return c.mark(markOpenIn, keys) }
 
 func (c citer) mark(open rune, keys []string) string {
 	var known []string

@@ -7,7 +7,6 @@ import (
 
 	"nlens/knowledge"
 	"nlens/rank"
-	"nlens/rules"
 )
 
 // discussion drafts one to three paragraphs in the hedged register of a
@@ -75,7 +74,7 @@ func (d *drafter) interpretation(c rank.ComparisonResult, named bool) string {
 		fmt.Fprintf(&b, "%s%s %s not reproduced by any of the candidate changes in N cycling considered here: the closest, %s, fails the posterior-predictive check (%s). This suggests that a process not represented in the model, a site that departs from the `%s` template, or a problem in the data is involved, and the ranking should not be read as support for any candidate.",
 			intro, pattern.text, pattern.verb("is", "are"), d.n.name(top), pValue(top.Fit.P), d.site)
 		return capitalize(b.String())
-	case top.ID == rules.None:
+	case top.ID == rank.NoneID:
 		fmt.Fprintf(&b, "%s%s %s small relative to their uncertainty, and the most probable interpretation is that N cycling did not change (posterior probability %s).",
 			intro, pattern.text, pattern.verb("is", "are"), fmtProb(top.Posterior))
 		return capitalize(b.String())
@@ -210,7 +209,7 @@ func pValue(p float64) string {
 
 // under is "the nitrification scenario", "no change".
 func (d *drafter) under(h rank.Hypothesis) string {
-	if h.ID == rules.None {
+	if h.ID == rank.NoneID {
 		return "no change"
 	}
 	return "the " + d.n.short(h) + " scenario"
@@ -274,8 +273,8 @@ func (d *drafter) mechanism(h rank.Hypothesis, lead string) string {
 		d.explained = append(d.explained, id)
 		clauses = append(clauses, strings.TrimSuffix(single.Mechanism, "."))
 		refs = append(refs, single.Refs...)
-		if strings.HasPrefix(id, rules.SourcePrefix) {
-			sources = append(sources, strings.TrimPrefix(id, rules.SourcePrefix))
+		if strings.HasPrefix(id, rank.SourcePrefix) {
+			sources = append(sources, strings.TrimPrefix(id, rank.SourcePrefix))
 		}
 	}
 	if len(clauses) == 0 {
@@ -316,7 +315,7 @@ func (d *drafter) academic(h rank.Hypothesis) string {
 }
 
 func (d *drafter) academicPart(m rank.Magnitude) string {
-	if strings.HasPrefix(m.Candidate, rules.SourcePrefix) {
+	if strings.HasPrefix(m.Candidate, rank.SourcePrefix) {
 		return magnitudeWords{m}.sentence("an undeclared input of " + d.n.sourceName(m.Candidate))
 	}
 	return magnitudeWords{m}.sentence(m.Direction + " " + m.Process)

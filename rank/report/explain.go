@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -321,7 +322,7 @@ func Observed(w io.Writer, st *study.Study) error {
 			ew.printf("management: %s\n", strings.Join(c.Management, ", "))
 		}
 	}
-	for _, wmsg := range st.Warnings {
+	for _, wmsg := range append(slices.Clone(st.Site.Warnings), st.Warnings...) {
 		ew.printf("%s\n", wrap("warning: "+wmsg, 78))
 	}
 	return ew.err

@@ -18,7 +18,6 @@ import (
 
 	"nlens/knowledge"
 	"nlens/rank"
-	"nlens/rules"
 )
 
 // Figure kinds: the three figures drawn for each comparison.
@@ -172,7 +171,6 @@ func Figure(w io.Writer, r *rank.Result, comparison int, kind, format string) er
 
 // figure is a stack of panels above a shared legend.
 type figure struct {
-	title  string
 	panels []*plot.Plot
 	// heights of the panels in points; aligned panels share the height.
 	heights []vg.Length
@@ -518,7 +516,7 @@ func pathsToDraw(c rank.ComparisonResult) []drawnPath {
 	hs, styles, ranks := leadingStyles(c)
 	var out []drawnPath
 	for j, h := range hs {
-		if h.ID == rules.None {
+		if h.ID == rank.NoneID {
 			continue
 		}
 		for _, p := range c.Paths {

@@ -11,7 +11,6 @@ import (
 	"nlens/knowledge"
 	"nlens/rank"
 	"nlens/rank/study"
-	"nlens/rules"
 )
 
 // This file turns numbers of a rank.Result into words for the e-mail text
@@ -216,10 +215,10 @@ func newNamer(kb *knowledge.Base, c rank.ComparisonResult) namer {
 
 // sourceName is a source's label without its parenthetical detail.
 func (n namer) sourceName(id string) string {
-	if s, ok := n.kb.Source(strings.TrimPrefix(id, rules.SourcePrefix)); ok {
+	if s, ok := n.kb.Source(strings.TrimPrefix(id, rank.SourcePrefix)); ok {
 		return cutParen(s.Label)
 	}
-	return strings.TrimPrefix(id, rules.SourcePrefix)
+	return strings.TrimPrefix(id, rank.SourcePrefix)
 }
 
 // cutParen drops a trailing parenthetical: "nitrate fertilizer (Ca, K or Na
@@ -246,7 +245,7 @@ func (n namer) name(h rank.Hypothesis) string {
 
 // part names one response of a hypothesis with its direction.
 func (n namer) part(m rank.Magnitude) string {
-	if strings.HasPrefix(m.Candidate, rules.SourcePrefix) {
+	if strings.HasPrefix(m.Candidate, rank.SourcePrefix) {
 		return "an undeclared input of " + n.sourceName(m.Candidate)
 	}
 	if h, ok := n.parts[m.Candidate]; ok && h.Label != "" {

@@ -52,6 +52,7 @@ func markdownTable(w io.Writer, headers []string, align string, rows [][]string)
 }
 
 func renderTable(w io.Writer, headers []string, align string, rows [][]string, md bool, maxWidths []int) error {
+	headers, rows = escapeCells(headers), escapeRows(rows) // before widths are measured
 	cols := make([]tw.Align, len(headers))
 	for i := range cols {
 		cols[i] = tw.AlignLeft

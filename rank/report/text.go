@@ -8,7 +8,6 @@ import (
 
 	"nlens/knowledge"
 	"nlens/rank"
-	"nlens/rules"
 )
 
 // textWidth is the line length of the e-mail text (the usual 72 columns of
@@ -88,7 +87,7 @@ func leadParagraph(c rank.ComparisonResult, n namer, g *glosses, rateUnit string
 		second = c.Hypotheses[1].Posterior
 	}
 	var b strings.Builder
-	if top.ID == rules.None {
+	if top.ID == rank.NoneID {
 		fmt.Fprintf(&b, "The most likely reading is that N cycling did not change and the shifts are sampling noise and natural variation: posterior probability %s%s.",
 			fmtProb(top.Posterior), g.posteriorGloss())
 	} else {
@@ -213,7 +212,7 @@ func nextParagraph(c rank.ComparisonResult, n namer, g *glosses, full bool, lead
 // nitrification", and "if nothing changed" for none.
 func (n namer) ifClause(h rank.Hypothesis, full bool) string {
 	switch {
-	case h.ID == rules.None:
+	case h.ID == rank.NoneID:
 		return "if nothing changed"
 	case full:
 		return "if " + n.short(h) + " is behind the shift"
@@ -231,7 +230,7 @@ func capitalize(s string) string {
 // short names a hypothesis briefly, for "if … is behind the shift".
 func (n namer) short(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
-		if h.ID == rules.None {
+		if h.ID == rank.NoneID {
 			return "no response beyond the treatment"
 		}
 		return h.Label

@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"nlens/knowledge"
+	"nlens/knowledge/input"
 )
 
 // A study's samples file must be a regular file of at most 64 MiB: a named
@@ -24,7 +25,7 @@ func TestSamplesFileKinds(t *testing.T) {
 			if err := os.Mkdir(path, 0o755); err != nil {
 				t.Fatal(err)
 			}
-		}, "cannot read samples file {path}: it is a directory, not a regular file"},
+		}, "cannot read samples file {path}: it is a directory, not a file"},
 		{"named pipe", func(t *testing.T, path string) {
 			if err := syscall.Mkfifo(path, 0o644); err != nil {
 				t.Skipf("no named pipes here: %v", err)
@@ -40,12 +41,12 @@ func TestSamplesFileKinds(t *testing.T) {
 				t.Fatal(err)
 			}
 			f.Close()
-		}, "cannot read samples file {path}: the file is larger than 64 MiB, the most nlens reads"},
+		}, "cannot read samples file {path}: it holds 67108865 bytes; a site or samples file may hold at most 64 MiB (67108864 bytes)"},
 		{"symbolic link to a directory", func(t *testing.T, path string) {
 			if err := os.Symlink(t.TempDir(), path); err != nil {
 				t.Fatal(err)
 			}
-		}, "cannot read samples file {path}: it is a directory, not a regular file"},
+		}, "cannot read samples file {path}: it is a directory, not a file"},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
@@ -76,7 +77,7 @@ func TestSamplesFileRead(t *testing.T) {
 	if err := os.WriteFile(path, []byte(data), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	got, err := readInputFile(path)
+	got, err := input.ReadFile(path, input.Named)
 	if err != nil || string(got) != data {
 		t.Errorf("got %q, %v; want the file's text", got, err)
 	}

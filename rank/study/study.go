@@ -1,6 +1,7 @@
 package study
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -14,6 +15,7 @@ import (
 
 	"nlens/forward"
 	"nlens/knowledge"
+	"nlens/knowledge/input"
 	"nlens/rules"
 )
 
@@ -209,11 +211,11 @@ type groupStat struct {
 
 // Load reads a study file from disk.
 func Load(path string, kb *knowledge.Base, opt Options) (*Study, error) {
-	data, err := os.ReadFile(path)
+	data, err := input.Read(path, input.Study)
 	if err != nil {
-		return nil, &knowledge.InputError{File: path, Msg: fmt.Sprintf("cannot read study file: %v", err)}
+		return nil, err
 	}
-	return Parse(path, data, kb, opt, readInputFile)
+	return Parse(path, data, kb, opt, func(p string) ([]byte, error) { return input.ReadFile(p, input.Named) })
 }
 
 // Parse reads a study from its text. readFile resolves the site file and
@@ -754,7 +756,7 @@ func sourceIDs(kb *knowledge.Base) []string {
 
 func unwrapPathError(err error) error {
 	var pe *os.PathError
-	if ok := asPathError(err, &pe); ok {
+	if errors.As(err, &pe) {
 		return pe.Err
 	}
 	return err
