@@ -39,7 +39,7 @@ type Simulation struct {
 	Site *Site
 	// Change is what was applied; its windows may end at +Inf (sustained),
 	// so the finiteness guard of the renderers skips it.
-	Change Change `finite:"-"`
+	Change Change   `finite:"-"`
 	Years  *float64 // nil: the new steady state
 	// Base are the baseline parameters; Changed those in force at the
 	// observation time (or in the final regime).
