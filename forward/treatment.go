@@ -104,20 +104,19 @@ func TreatmentChange(s *Site, kb *knowledge.Base, t Treatment, size SizeFunc) (C
 			if to < 0 {
 				return c, fmt.Errorf("source %q enters the %s pool, which site %q does not have", a.Source, part.Pool, s.ID)
 			}
-			d15 := part.D15NPermil
+			var d15 float64
 			if a.D15N != nil {
 				d15 = *a.D15N
 			} else {
 				d15 = size(fmt.Sprintf("additions[%d].%s.d15n", i, part.Pool), knowledge.Size{Typical: part.D15NPermil, Range: part.D15NRangePermil})
 			}
 			d18 := s.NitrificationD18O
-			if part.D18OPermil != nil {
-				d18 = *part.D18OPermil
-				if a.D18O != nil {
-					d18 = *a.D18O
-				} else {
-					d18 = size(fmt.Sprintf("additions[%d].%s.d18o", i, part.Pool), knowledge.Size{Typical: *part.D18OPermil, Range: part.D18ORangePermil})
-				}
+			switch {
+			case part.D18OPermil == nil:
+			case a.D18O != nil:
+				d18 = *a.D18O
+			default:
+				d18 = size(fmt.Sprintf("additions[%d].%s.d18o", i, part.Pool), knowledge.Size{Typical: *part.D18OPermil, Range: part.D18ORangePermil})
 			}
 			mod.Inputs = append(mod.Inputs, InputParam{To: to, RateKgPerHaYr: a.RateKgPerHaYr * part.Share, D15N: d15, D18O: d18})
 		}

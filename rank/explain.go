@@ -655,6 +655,7 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 			return nil, nil, err
 		}
 		cr.Paths = e.paths(&cr, sorted, leading, pi)
+		cr.Timeline = e.timeline(pi)
 		cr.Warnings = slices.Clone(warnings)
 		out = append(out, cr)
 	}

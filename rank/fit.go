@@ -159,11 +159,10 @@ type fitParam struct {
 // fitTarget is a target bound to the site.
 type fitTarget struct {
 	FitTarget
-	obs     forward.Observable
-	logR    bool
-	sd      float64 // combined sd on the comparison scale
-	needsO  bool
-	display string
+	obs    forward.Observable
+	logR   bool
+	sd     float64 // combined sd on the comparison scale
+	needsO bool
 }
 
 // ErrNothingToFit is returned when the site has no free parameter.

@@ -157,61 +157,114 @@ func meanSD(v []float64) (float64, float64) {
 	return m, math.Sqrt(s / float64(len(v)))
 }
 
-// pathPoints is the number of times in a predicted trajectory.
-const pathPoints = 41
+// Predicted trajectories: pathPoints times, each path from pathSamples
+// posterior samples (magnitudes and nuisance draws) of its hypothesis.
+const (
+	pathPoints  = 41
+	pathSamples = 24
+)
 
 // paths predicts how part pi's observed observables move over time under
-// each leading hypothesis at its posterior-median magnitudes on the nominal
-// site with the treatment at its typical sizes.
+// each leading hypothesis: at each time the median and the 5–95 % band of
+// the shift over posterior samples, the treatment applied in each sample
+// as drawn, so the figures agree with the tables.
 func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int, pi int) []Path {
 	pt := e.parts[pi]
 	w := newWorker(e.site)
+	times, err := e.pathTimes(w, pi)
+	if err != nil {
+		return nil
+	}
 	var out []Path
-	for _, i := range leading {
+	for k, i := range leading {
 		s := entries[i].s
-		h := cr.Hypotheses[i]
+		rng := newRand(e.opt.Seed, e.stream, 3000+1000*uint64(pi)+uint64(k))
+		// values[o][t] over samples
+		values := make([][][]float64, pt.hi-pt.lo)
+		for o := range values {
+			values[o] = make([][]float64, len(times))
+		}
 		theta := make([]float64, len(s.knobs))
-		m := 0
-		for a, k := range s.knobs {
-			if k.kind == kindDuration {
-				theta[a] = h.Duration.Best
+		samples := [][2]int{{0, 0}}
+		if len(s.knobs) > 0 || s.nd > 1 {
+			samples = s.sample(pathSamples, rng)
+		}
+		for _, fd := range samples {
+			d := fd[1]
+			if len(s.knobs) > 0 {
+				theta = s.fineTheta(fd[0], theta)
+			}
+			e.changeFor(w, d, pi, s.knobs, theta)
+			states, params, err := w.run.Trajectory(w.model, &e.draws[d].params, &w.change, &e.base[d], times, false)
+			if err != nil {
 				continue
 			}
-			theta[a] = h.Magnitudes[m].Best
-			m++
-		}
-		e.changeFor(w, 0, pi, s.knobs, theta)
-		var times []float64
-		var err error
-		if y := e.horizon(); y > 0 {
-			times, err = forward.EvenTimes(math.Max(2*y, 2), pathPoints)
-		} else {
-			var p forward.Params
-			if err = w.change.ParamsAt(e.site, &e.draws[0].params, math.Inf(1), &p); err == nil {
-				var horizon float64
-				horizon, err = w.model.SettlingTime(&p, &e.base[0], e.obs)
-				if err == nil {
-					times, err = forward.LogTimes(horizon, pathPoints)
+			for o := pt.lo; o < pt.hi; o++ {
+				ob := e.obs[o]
+				if ob.Kind == forward.KindDelta18 {
+					continue
+				}
+				for t := range states {
+					v := ob.Shift(e.baseVals[d][o], ob.Value(&states[t], &params[t]))
+					if !math.IsNaN(v) && !math.IsInf(v, 0) {
+						values[o-pt.lo][t] = append(values[o-pt.lo][t], v)
+					}
 				}
 			}
 		}
-		if err != nil {
-			continue
-		}
-		states, params, err := w.run.Trajectory(w.model, &e.draws[0].params, &w.change, &e.base[0], times, true)
-		if err != nil {
-			continue
-		}
-		pth := Path{Hypothesis: s.id, Years: times, Shifts: map[string][]float64{}}
+		pth := Path{Hypothesis: s.id, Years: times, Shifts: map[string][]float64{}, Low: map[string][]float64{}, High: map[string][]float64{}}
 		for o := pt.lo; o < pt.hi; o++ {
-			ob := e.obs[o]
-			vals := make([]float64, len(states))
-			for t := range states {
-				vals[t] = ob.Shift(e.baseVals[0][o], ob.Value(&states[t], &params[t]))
+			name := e.obs[o].Name
+			med, lo, hi := make([]float64, len(times)), make([]float64, len(times)), make([]float64, len(times))
+			ok := true
+			for t := range times {
+				v := values[o-pt.lo][t]
+				if len(v) == 0 {
+					ok = false
+					break
+				}
+				med[t], lo[t], hi[t] = quantiles(v)
 			}
-			pth.Shifts[ob.Name] = vals
+			if ok {
+				pth.Shifts[name], pth.Low[name], pth.High[name] = med, lo, hi
+			}
 		}
 		out = append(out, pth)
+	}
+	return out
+}
+
+// pathTimes are the times of the predicted trajectories: evenly to twice
+// the unit's longest horizon, or log-spaced to the settling time under the
+// treatment alone when every part is read at steady state.
+func (e *engine) pathTimes(w *worker, pi int) ([]float64, error) {
+	if y := e.horizon(); y > 0 {
+		return forward.EvenTimes(math.Max(2*y, 2), pathPoints)
+	}
+	e.changeFor(w, 0, pi, nil, nil)
+	var p forward.Params
+	if err := w.change.ParamsAt(e.site, &e.draws[0].params, math.Inf(1), &p); err != nil {
+		return nil, err
+	}
+	horizon, err := w.model.SettlingTime(&p, &e.base[0], e.obs)
+	if err != nil {
+		return nil, err
+	}
+	return forward.LogTimes(horizon, pathPoints)
+}
+
+// timeline lists what the treatment of part pi does and when, at typical
+// sizes (the start, the end of each time-limited change), for figures.
+func (e *engine) timeline(pi int) []Event {
+	c := e.draws[0].forcing[pi]
+	var out []Event
+	if len(c.Moves) > 0 || len(c.Mods) > 0 {
+		out = append(out, Event{Years: 0, Label: "treatment begins"})
+	}
+	for _, m := range c.Mods {
+		if !math.IsInf(m.End, 1) {
+			out = append(out, Event{Years: m.End, Label: m.Label + " ends"})
+		}
 	}
 	return out
 }

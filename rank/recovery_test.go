@@ -153,7 +153,7 @@ func TestRecoveryScan(t *testing.T) {
 			tr := tr
 			tr.perturb = int(seed)
 			st := synthesize(t, kb, tr, seed)
-			res, err := Explain(context.Background(), st, kb, defaultSet(t), Options{Seed: 1})
+			res, err := Explain(context.Background(), st, kb, defaultSet(t), Options{Seed: 1, Draws: 48, FixedDraws: true})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -165,6 +165,17 @@ func TestRecoveryScan(t *testing.T) {
 				}
 			}
 			rank := rankOf(&c, tr.want)
+			// How far the truth's noise-free shifts lie from the treatment
+			// alone's on the same (perturbed) site, in standard errors.
+			nf, nn := tr, tr
+			nf.noiseFree, nn.noiseFree, nn.response = true, true, ""
+			a, b := synthesize(t, kb, nf, seed).Comparisons[0].Observed, synthesize(t, kb, nn, seed).Comparisons[0].Observed
+			var dist float64
+			for i := range a {
+				z := (a[i].Shift - b[i].Shift) / a[i].SE
+				dist += z * z
+			}
+			dist = math.Sqrt(dist)
 			total++
 			if rank == 0 {
 				hits1++
@@ -176,7 +187,7 @@ func TestRecoveryScan(t *testing.T) {
 			for _, o := range c.Observed {
 				ob = append(ob, fmt.Sprintf("%s%+.1f", o.Observable[:min(4, len(o.Observable))], o.Shift))
 			}
-			t.Logf("%-34s s%d rank%2d | %s | %s", tr.name, seed, rank+1, strings.Join(ob, " "), strings.Join(top, " "))
+			t.Logf("%-34s s%d rank%2d dist %5.1f | %s | %s", tr.name, seed, rank+1, dist, strings.Join(ob, " "), strings.Join(top, " "))
 		}
 	}
 	t.Logf("top-1 %d/%d, top-2 %d/%d", hits1, total, hits2, total)

@@ -91,8 +91,10 @@ type ComparisonResult struct {
 	// Leading are the hypothesis ids the measurements were scored against.
 	Leading []string
 	// Paths are predicted shift trajectories of the observed observables
-	// under the leading hypotheses (for figures).
-	Paths []Path
+	// under the leading hypotheses (for figures); Timeline marks when the
+	// treatment begins and when its time-limited parts end.
+	Paths    []Path
+	Timeline []Event
 	// ReplicatesAssumed is the replicate count used for measurement noise.
 	ReplicatesAssumed int
 	// Draws is the number of nuisance draws the ranking finally used
@@ -260,10 +262,18 @@ type Measurement struct {
 	Predicted map[string]Moments
 }
 
-// Path is the predicted shift of observables over time under a hypothesis
-// at its posterior-median magnitudes (nominal site and treatment).
+// Path is the predicted shift of observables over time under a
+// hypothesis: at each time the median (Shifts) and the 5–95 % band (Low,
+// High) over posterior samples of its magnitudes and nuisance draws.
 type Path struct {
 	Hypothesis string
 	Years      []float64
 	Shifts     map[string][]float64
+	Low, High  map[string][]float64
+}
+
+// Event is a moment of the treatment's time course, for figures.
+type Event struct {
+	Years float64
+	Label string
 }

@@ -268,7 +268,6 @@ func (n namer) sized(h rank.Hypothesis) string {
 	return strings.Join(parts, "; together with ")
 }
 
-func pct(share float64) int { return int(math.Round(100 * share)) }
 
 // Plain-text and Markdown forms of kg N/ha/yr.
 const (
