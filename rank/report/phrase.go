@@ -268,7 +268,6 @@ func (n namer) sized(h rank.Hypothesis) string {
 	return strings.Join(parts, "; together with ")
 }
 
-
 // Plain-text and Markdown forms of kg N/ha/yr.
 const (
 	rateText     = "kg N/ha per year"
