@@ -4,9 +4,11 @@ import (
 	"context"
 	"math"
 	"slices"
+	"strings"
 	"sync"
 	"testing"
 
+	"nlens/forward"
 	"nlens/knowledge"
 	"nlens/rules"
 )
@@ -36,7 +38,7 @@ func explainSynthetic(t *testing.T, tr truth, seed uint64) *ComparisonResult {
 	t.Helper()
 	kb := knowledge.MustDefault()
 	st := synthesize(t, kb, tr, seed)
-	res, err := Explain(context.Background(), st, kb, defaultSet(t), Options{Seed: 1, Workers: 1})
+	res, err := Explain(context.Background(), st, kb, defaultSet(t), testOptions)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -79,37 +81,107 @@ func recovered(c *ComparisonResult, want string) (bool, string) {
 }
 
 var (
-	obsCore  = []string{"foliage", "soil", "soil-nitrate"}
 	obsRich  = []string{"foliage", "soil", "soil-nitrate", "soil-ammonium", "nitrate-d18o"}
 	obsFungi = []string{"foliage", "soil", "soil-nitrate", "soil-ammonium", "fungi"}
 )
 
-// recoveryCases are one truth per candidate kind and direction, each on top
-// of a declared treatment, and none under a treatment alone. Shares are
-// chosen well away from the baseline (magnitudes of the order seen in the
-// field cases of FACTS-2 §10; the exact values are arbitrary).
+// recoveryCases are one truth per candidate kind and both directions, each
+// on top of a declared treatment, and none under a treatment alone.
+// Shares are set well away from each template's baseline share (magnitudes
+// of the order of the field cases of FACTS-2 §10; the exact values are
+// arbitrary).
 func recoveryCases() []truth {
 	tdf, bor, crop, grass := "temperate-deciduous-forest", "boreal-conifer-forest", "fertilized-cropland", "temperate-grassland"
 	cut, an := manage("clear-cut"), add("ammonium-nitrate", 50)
 	return []truth{
 		{name: "clear-cut alone", site: tdf, years: years(3), treatment: cut, want: "none", obs: obsRich},
-		{name: "more nitrification after clear-cut", site: tdf, years: years(3), treatment: cut, response: "more-nitrification", value: 0.7, want: "more-nitrification", obs: obsRich},
-		{name: "less nitrification, NH4NO3", site: tdf, years: years(10), treatment: an, response: "less-nitrification", value: 0.03, want: "less-nitrification", obs: obsRich},
-		{name: "more denitrification, NH4NO3", site: tdf, years: years(10), treatment: an, response: "more-denitrification", value: 0.5, want: "more-denitrification", obs: obsRich},
-		{name: "more nitrate leaching after clear-cut", site: tdf, years: years(3), treatment: cut, response: "more-nitrate-leaching", value: 0.8, want: "more-nitrate-leaching", obs: obsRich},
-		{name: "more volatilization, urea on cropland", site: crop, years: years(5), treatment: add("urea", 100), response: "more-volatilization", value: 0.3, want: "more-volatilization", obs: obsRich},
-		{name: "less mineralization, NH4NO3", site: tdf, years: years(10), treatment: an, response: "less-mineralization", value: 0.2, want: "less-mineralization", obs: obsRich},
-		{name: "less mycorrhizal route, NH4NO3 boreal", site: bor, years: years(10), treatment: add("ammonium-nitrate", 70), response: "less-mycorrhizal-route", value: 0.05, want: "less-mycorrhizal-route", obs: obsFungi},
-		{name: "more fungal transfer, boreal", site: bor, years: years(10), treatment: manage("thinned"), response: "more-fungal-transfer", value: 0.9, want: "more-fungal-transfer", obs: obsFungi},
-		{name: "more nitrate uptake, grazed grassland", site: grass, years: years(10), treatment: manage("grazed"), response: "more-nitrate-uptake", value: 0.9, want: "more-nitrate-uptake", obs: obsRich},
-		{name: "less plant uptake after clear-cut", site: tdf, years: years(3), treatment: cut, response: "less-plant-uptake", value: 0.1, want: "less-plant-uptake", obs: obsRich},
-		{name: "undeclared manure on cropland", site: crop, years: years(5), treatment: add("ammonium-nitrate", 100), response: "source:manure", value: 80, want: "source:manure", obs: obsRich},
+		{name: "more nitrification after clear-cut", site: tdf, years: years(3), treatment: cut, response: "more-nitrification", value: 0.6, obs: obsRich},
+		{name: "less nitrification, NH4NO3", site: tdf, years: years(10), treatment: an, response: "less-nitrification", value: 0.004, obs: obsRich},
+		{name: "more denitrification, NH4NO3", site: tdf, years: years(10), treatment: an, response: "more-denitrification", value: 0.5, obs: obsRich},
+		{name: "less denitrification, boreal", site: bor, years: years(10), treatment: manage("thinned"), response: "less-denitrification", value: 0.005, obs: obsRich},
+		{name: "more nitrate leaching after clear-cut", site: tdf, years: years(3), treatment: cut, response: "more-nitrate-leaching", value: 0.85, obs: obsRich},
+		{name: "more volatilization, urea on cropland", site: crop, years: years(5), treatment: add("urea", 100), response: "more-volatilization", value: 0.35, obs: obsRich},
+		{name: "more mineralization, grassland", site: grass, years: years(10), treatment: manage("grazed"), response: "less-mineralization", value: 0.5, obs: obsRich},
+		{name: "less mineralization, NH4NO3", site: tdf, years: years(10), treatment: an, response: "less-mineralization", value: 0.12, obs: obsRich},
+		{name: "more immobilization, NH4NO3", site: tdf, years: years(10), treatment: an, response: "more-immobilization", value: 0.88, obs: obsRich},
+		{name: "less mycorrhizal route, NH4NO3 boreal", site: bor, years: years(10), treatment: add("ammonium-nitrate", 70), response: "less-mycorrhizal-route", value: 0.1, obs: obsFungi},
+		{name: "more fungal transfer, boreal", site: bor, years: years(10), treatment: manage("thinned"), response: "more-fungal-transfer", value: 0.85, obs: obsFungi},
+		{name: "more nitrate uptake, grazed grassland", site: grass, years: years(10), treatment: manage("grazed"), response: "more-nitrate-uptake", value: 0.9, obs: obsRich},
+		{name: "less plant uptake after clear-cut", site: tdf, years: years(8), treatment: cut, response: "less-plant-uptake", value: 0.04, obs: obsRich},
+		{name: "more fixation, grassland", site: grass, years: years(20), treatment: manage("grazed"), response: "more-fixation", value: 40, obs: obsRich},
+		{name: "undeclared manure on cropland", site: crop, years: years(5), treatment: add("ammonium-nitrate", 100), response: "source:manure", value: 150, obs: obsRich},
 	}
 }
 
-// Truth recovery without noise: for every candidate kind the generating
-// change ranks first, or second with the measurement that breaks the tie
-// among the top three recommendations; and no pair outranks it.
+// want is the hypothesis a truth should rank: its response, or none.
+func (tr truth) wantID() string {
+	if tr.want != "" {
+		return tr.want
+	}
+	return tr.response
+}
+
+// testOptions keeps the recovery tests fast: a fixed, moderate number of
+// draws (the adaptive draws are tested on the demo).
+var testOptions = Options{Seed: 1, Workers: 1, Draws: 192, FixedDraws: true}
+
+// identifiable is the distance, in standard errors, between the truth's
+// noise-free shifts and the treatment alone's on the same site: above
+// identifiableSE the data can tell the response from no response.
+func identifiable(t *testing.T, tr truth, seed uint64) float64 {
+	t.Helper()
+	kb := knowledge.MustDefault()
+	nf, nn := tr, tr
+	nf.noiseFree, nn.noiseFree, nn.response = true, true, ""
+	a, b := synthesize(t, kb, nf, seed).Comparisons[0].Observed, synthesize(t, kb, nn, seed).Comparisons[0].Observed
+	var d float64
+	for i := range a {
+		z := (a[i].Shift - b[i].Shift) / a[i].SE
+		d += z * z
+	}
+	return math.Sqrt(d)
+}
+
+const identifiableSE = 6
+
+// checkDeclaredAndContext fails if a declared addition or a source outside
+// its context is ranked (issue 9).
+func checkDeclaredAndContext(t *testing.T, c *ComparisonResult, tr truth) {
+	t.Helper()
+	kb := knowledge.MustDefault()
+	ctx := rules.Context{LandUse: mustSite(t, tr.site).LandUse, Management: tr.treatment.Management}
+	for _, a := range tr.treatment.Additions {
+		ctx.Declared = append(ctx.Declared, a.Source)
+	}
+	for _, h := range c.Hypotheses {
+		for _, m := range h.Magnitudes {
+			src, ok := strings.CutPrefix(m.Candidate, rules.SourcePrefix)
+			if !ok {
+				continue
+			}
+			if slices.Contains(ctx.Declared, src) {
+				t.Errorf("declared addition %s ranked as %s", src, h.ID)
+			}
+			if !rules.SourcePossible(kb, defaultSet(t).Candidate(m.Candidate), ctx) {
+				t.Errorf("%s ranked outside its context (land use %q)", h.ID, ctx.LandUse)
+			}
+		}
+	}
+}
+
+func mustSite(t *testing.T, id string) *forward.Site {
+	t.Helper()
+	s, err := forward.LoadSite(id, knowledge.MustDefault())
+	if err != nil {
+		t.Fatal(err)
+	}
+	return s
+}
+
+// Truth recovery without noise on the nominal site: every truth the data
+// can identify ranks first, the others in the top two; no pair outranks a
+// generating single; no declared addition and no source outside its
+// context is ranked.
 func TestRecoversTruthNoiseFree(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the full explanation for every candidate kind")
@@ -119,28 +191,32 @@ func TestRecoversTruthNoiseFree(t *testing.T) {
 		t.Run(tr.name, func(t *testing.T) {
 			t.Parallel()
 			tr.noiseFree = true
+			want := tr.wantID()
 			c := explainSynthetic(t, tr, 1)
-			ok, why := recovered(c, tr.want)
-			if !ok {
-				t.Errorf("%s: %s (top: %s %.2f, %s %.2f)", tr.want, why, c.Hypotheses[0].ID, c.Hypotheses[0].Posterior, c.Hypotheses[1].ID, c.Hypotheses[1].Posterior)
-			} else if why != "" {
-				t.Logf("%s", why)
+			checkDeclaredAndContext(t, c, tr)
+			r := rankOf(c, want)
+			dist := identifiable(t, tr, 1)
+			switch {
+			case want == "none" || dist >= identifiableSE:
+				if r != 0 {
+					t.Errorf("%s (%.1f SE from the treatment alone) at rank %d; top %s %.2f", want, dist, r+1, c.Hypotheses[0].ID, c.Hypotheses[0].Posterior)
+				}
+			case r < 0 || r > 1:
+				t.Errorf("%s (only %.1f SE from the treatment alone) at rank %d, want the top two", want, dist, r+1)
 			}
-			want := rankOf(c, tr.want)
-			if want < 0 {
-				return
-			}
-			for i, h := range c.Hypotheses[:want] {
-				if h.Pair {
-					t.Errorf("pair %s (rank %d, %.2f) outranks the generating single %s (%.2f)", h.ID, i+1, h.Posterior, tr.want, c.Hypotheses[want].Posterior)
+			for i := range max(r, 0) {
+				if h := c.Hypotheses[i]; h.Pair && dist >= identifiableSE {
+					t.Errorf("pair %s (rank %d, %.2f) outranks the generating single %s", h.ID, i+1, h.Posterior, want)
 				}
 			}
 		})
 	}
 }
 
-// With sampling noise the criterion holds in at least three of four noise
-// draws for each case.
+// With sampling noise, on a site drawn away from the nominal one (rates
+// within their spreads, ε within their ranges, treatment sizes within
+// theirs): identifiable truths rank first in at least three of four noise
+// draws, the others in the top two.
 func TestRecoversTruthWithNoise(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs many full explanations")
@@ -149,17 +225,24 @@ func TestRecoversTruthWithNoise(t *testing.T) {
 	for _, tr := range recoveryCases() {
 		t.Run(tr.name, func(t *testing.T) {
 			t.Parallel()
-			hits := 0
+			want := tr.wantID()
+			hits, tried := 0, 0
 			for seed := uint64(11); seed < 15; seed++ {
+				tr := tr
+				tr.perturb = int(seed - 10)
+				dist := identifiable(t, tr, seed)
 				c := explainSynthetic(t, tr, seed)
-				if ok, _ := recovered(c, tr.want); ok {
+				checkDeclaredAndContext(t, c, tr)
+				r := rankOf(c, want)
+				tried++
+				if (want == "none" || dist >= identifiableSE) && r == 0 || dist < identifiableSE && want != "none" && r >= 0 && r <= 1 {
 					hits++
 				} else {
-					t.Logf("seed %d: top %s %.2f, truth at %d", seed, c.Hypotheses[0].ID, c.Hypotheses[0].Posterior, rankOf(c, tr.want)+1)
+					t.Logf("seed %d (%.1f SE): top %s %.2f, truth at %d", seed, dist, c.Hypotheses[0].ID, c.Hypotheses[0].Posterior, r+1)
 				}
 			}
 			if hits < 3 {
-				t.Errorf("%s recovered in %d of 4 noise draws, want at least 3", tr.want, hits)
+				t.Errorf("%s recovered in %d of %d noise draws, want at least 3", want, hits, tried)
 			}
 		})
 	}
@@ -188,7 +271,7 @@ func TestNoneWinsOnNoise(t *testing.T) {
 					continue
 				}
 				used++
-				res, err := Explain(context.Background(), st, knowledge.MustDefault(), defaultSet(t), Options{Seed: 1, Workers: 1})
+				res, err := Explain(context.Background(), st, knowledge.MustDefault(), defaultSet(t), testOptions)
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -41,10 +41,6 @@ type truth struct {
 	perturb int
 }
 
-// fieldSD is the between-plot sd used to draw synthetic group means, ‰
-// (typical field spreads of the measurement catalogue, from memory).
-var fieldSD = map[string]float64{"foliage": 0.8, "soil": 0.5, "soil-nitrate": 2.0, "soil-ammonium": 2.0, "nitrate-d18o": 2.0, "fungi": 1.2, "n2o": 3.0, "forest-floor": 0.8, "litter": 0.8}
-
 // synthesize builds a study whose treatment arm is the site under the
 // declared treatment plus the truth's response, with group means drawn
 // around the model's baseline and changed values.
@@ -115,7 +111,7 @@ func synthesize(t *testing.T, kb *knowledge.Base, tr truth, seed uint64) *study.
 		}
 		b := o.Value(&before, &params)
 		c := o.Value(&after, r.Final())
-		sd := fieldSD[name]
+		sd := fieldSD(kb, name)
 		e1, e2 := z.Rand(), z.Rand()
 		if tr.noiseFree {
 			e1, e2 = 0, 0
@@ -153,7 +149,7 @@ func TestRecoveryScan(t *testing.T) {
 			tr := tr
 			tr.perturb = int(seed)
 			st := synthesize(t, kb, tr, seed)
-			res, err := Explain(context.Background(), st, kb, defaultSet(t), Options{Seed: 1, Draws: 48, FixedDraws: true})
+			res, err := Explain(context.Background(), st, kb, defaultSet(t), testOptions)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -164,7 +160,7 @@ func TestRecoveryScan(t *testing.T) {
 					top = append(top, fmt.Sprintf("%s=%.2f", h.ID, h.Posterior))
 				}
 			}
-			rank := rankOf(&c, tr.want)
+			rank := rankOf(&c, tr.wantID())
 			// How far the truth's noise-free shifts lie from the treatment
 			// alone's on the same (perturbed) site, in standard errors.
 			nf, nn := tr, tr

@@ -112,7 +112,7 @@ func synthesizeSeries(t *testing.T, kb *knowledge.Base, tr seriesTruth, seed uin
 				t.Fatal(err)
 			}
 			bv, cv := o.Value(&before, &p), o.Value(&after, r.Final())
-			sd := fieldSD[name]
+			sd := fieldSD(kb, name)
 			e1, e2 := z.Rand(), z.Rand()
 			if seed == 0 {
 				e1, e2 = 0, 0
