@@ -57,16 +57,13 @@ func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, ent
 		}
 		s := entries[leading[k]].s
 		preds[k] = make([][]float64, len(items))
-		if s.id == rules.None {
-			for i := range items {
-				preds[k][i] = make([]float64, samplesPerHypothesis)
-			}
-			return
-		}
 		rng := newRand(e.opt.Seed, e.stream, 1000+100*uint64(pi)+uint64(k))
 		theta := make([]float64, len(s.knobs))
+		// "none" is the treatment alone: its samples are nuisance draws.
 		for _, fd := range s.sample(samplesPerHypothesis, rng) {
-			theta = s.fineTheta(fd[0], theta)
+			if len(s.knobs) > 0 {
+				theta = s.fineTheta(fd[0], theta)
+			}
 			d := fd[1]
 			ok := e.run(w, d, pi, s.knobs, theta, true) == nil
 			for i, it := range items {
