@@ -109,6 +109,10 @@ type engine struct {
 	// draws (guarded by cacheMu: hypotheses are scored in parallel).
 	cacheMu sync.Mutex
 	cache   map[string]*coarseCache
+	// settled holds, from the previous round of draws, the hypotheses
+	// whose posterior was too small to matter to the Monte Carlo error of
+	// the leading ones; later rounds reuse them instead of adding draws.
+	settled map[string]*scored
 	// observed observables of every part, their shifts and variances.
 	obs      []forward.Observable
 	observed []study.Observed

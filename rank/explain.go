@@ -346,7 +346,22 @@ const (
 	mcseTarget      = 0.02
 	mcseTop         = 3
 	DefaultMaxDraws = 384
+	// settledPosterior: a hypothesis below this posterior whose Monte Carlo
+	// error contribution p·√relVar is under a quarter of mcseTarget keeps
+	// its draws when the others get more (its evidence stays an unbiased
+	// estimate, only noisier, and it adds at most that to the error of the
+	// leading posteriors).
+	settledPosterior = 0.02
 )
+
+// evaluateOrReuse scores a hypothesis, or returns its score from an earlier
+// round of draws if that round found it settled.
+func (e *engine) evaluateOrReuse(w *worker, id string, knobs []*knob, none *scored) *scored {
+	if s, ok := e.settled[id]; ok {
+		return s
+	}
+	return e.evaluate(w, id, knobs, none)
+}
 
 // explainUnit explains a unit with as many draws as its top posteriors
 // need (DESIGN §5): the draws double until the Monte Carlo error of the top
@@ -441,7 +456,7 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 		if ctx.Err() != nil {
 			return
 		}
-		scores[i] = e.evaluate(w, singles[i].id(), compiled[i], none)
+		scores[i] = e.evaluateOrReuse(w, singles[i].id(), compiled[i], none)
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
@@ -471,7 +486,7 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 		a, b := jobs[i][0], jobs[i][1]
 		ka, _ := e.compile(a.cands[0], true)
 		kbb, _ := e.compile(b.cands[0], true)
-		pairScores[i] = e.evaluate(w, a.cands[0].ID+"+"+b.cands[0].ID, []*knob{ka, kbb}, none)
+		pairScores[i] = e.evaluateOrReuse(w, a.cands[0].ID+"+"+b.cands[0].ID, []*knob{ka, kbb}, none)
 		prog.add(1)
 	})
 	if err := ctx.Err(); err != nil {
@@ -542,6 +557,14 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 			h.Duration = en.s.duration()
 		}
 		hyps[i] = h
+	}
+	// Hypotheses too improbable to matter to the Monte Carlo error of the
+	// leading posteriors keep these draws in later rounds.
+	e.settled = map[string]*scored{}
+	for i, h := range hyps {
+		if i > 0 && h.Posterior < settledPosterior && h.Posterior*math.Sqrt(entries[i].s.relVar) < mcseTarget/4 {
+			e.settled[h.ID] = entries[i].s
+		}
 	}
 	// Candidates indistinguishable from none are counted with it.
 	var quiet []string

@@ -361,9 +361,6 @@ func (t *table) tabulate(site *forward.Site, opt Options) (*Samples, error) {
 			out.Warnings = append(out.Warnings, fmt.Sprintf("%s: group %q: forest-floor samples (depth ≤ 0 cm or an O horizon, first on %s) are pooled with the mineral soil, because site %q has no forest-floor pool", at, k.group, g.where(pos), site.ID))
 		}
 	}
-	if _, ok := t.col["block"]; ok {
-		out.Warnings = append(out.Warnings, fmt.Sprintf("%s: the block column is read, but the standard errors do not yet use the pairing: samples are treated as independent", g.file))
-	}
 	if err := errs.err(); err != nil {
 		return nil, err
 	}

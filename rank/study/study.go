@@ -125,6 +125,9 @@ type Observed struct {
 	Shift, SE, DF      float64
 	Control, Treatment Stat
 	LogRatio           bool // pool or flux: shift is ln(treatment/control)
+	// Blocks is the number of blocks of a paired design whose
+	// within-block differences gave Shift and SE (0 when unpaired).
+	Blocks int
 }
 
 // NoLevels reports whether the shift came without group levels (from a
@@ -207,6 +210,9 @@ type groupStat struct {
 	Stat
 	file string
 	line int
+	// samples are the rows of a samples file (nil for a group written in
+	// the study file).
+	samples []Sample
 }
 
 // Load reads a study file from disk.
@@ -358,7 +364,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 				bad(field+"."+key, append(path, key), "%s", msg)
 				continue
 			}
-			groups[g][obs] = groupStat{s, file, doc.Line(path...)}
+			groups[g][obs] = groupStat{s, file, doc.Line(path...), nil}
 		}
 		if len(errs) > nBad {
 			badGroups[g] = true
@@ -386,7 +392,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 					errs = append(errs, &knowledge.InputError{File: path, Line: r.Line, Field: "observable", Msg: fmt.Sprintf("group %q already has %s from %s line %d; give each group's observable in one place", r.Group, r.Observable, prev.file, prev.line)})
 					continue
 				}
-				groups[r.Group][r.Observable] = groupStat{r.Stat, path, r.Line}
+				groups[r.Group][r.Observable] = groupStat{r.Stat, path, r.Line, r.Samples}
 			}
 		}
 	}
@@ -544,6 +550,11 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 					continue
 				}
 				o := observe(obs, ctl[obs].Stat, t.Stat)
+				if po, why := pairedObserve(obs, ctl[obs].samples, t.samples); why == "" {
+					o = po
+				} else if why != noBlocks {
+					st.Warnings = append(st.Warnings, fmt.Sprintf("%s: %s of %q vs %q is not read as paired (%s): the standard error treats the samples as independent", c.Name, obs, ce.Treatment, ce.Control, why))
+				}
 				if math.IsNaN(o.Shift) || math.IsInf(o.Shift, 0) || math.IsNaN(o.SE) || math.IsInf(o.SE, 0) {
 					bad(field("treatment"), path("treatment"), "the shift of %s between groups %q and %q or its standard error is beyond floating-point range; check their means and sds", obs, ce.Control, ce.Treatment)
 					continue
