@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"math"
+	"nlens/knowledge/input"
 	"os"
 	"path/filepath"
 	"strings"
@@ -61,7 +62,7 @@ func FuzzParseSite(f *testing.F) {
 
 // checkSitePositioned holds a rejection to the positioning rule:
 //
-//   - errors.As finds a *knowledge.InputError, and every InputError in the
+//   - errors.As finds a *input.Error, and every InputError in the
 //     error (an InputErrors list is checked element by element) names the
 //     file and says what is wrong;
 //   - Line is 1-based and never past the end of the text (the YAML parser
@@ -72,12 +73,12 @@ func FuzzParseSite(f *testing.F) {
 //     text and must say where.
 func checkSitePositioned(t *testing.T, err error, data []byte) {
 	t.Helper()
-	var first *knowledge.InputError
+	var first *input.Error
 	if !errors.As(err, &first) {
-		t.Fatalf("rejection is not a *knowledge.InputError: %T %v", err, err)
+		t.Fatalf("rejection is not a *input.Error: %T %v", err, err)
 	}
 	lines := inputtest.LineCount(data)
-	for _, e := range knowledge.Flatten(err) {
+	for _, e := range input.Flatten(err) {
 		switch {
 		case e.File != fuzzSiteFile:
 			t.Errorf("error names file %q, want %q: %v", e.File, fuzzSiteFile, e)

@@ -166,7 +166,7 @@ func LoadSite(idOrPath string, kb *knowledge.Base) (*Site, error) {
 	data, err := input.ReadFile(idOrPath, input.Site)
 	if err != nil {
 		if os.IsNotExist(err) && !strings.ContainsAny(idOrPath, "/\\.") {
-			return nil, &knowledge.InputError{File: idOrPath, Msg: fmt.Sprintf("no built-in site template or file of that name (templates: %s)", strings.Join(kb.SiteIDs(), ", "))}
+			return nil, &input.Error{File: idOrPath, Msg: fmt.Sprintf("no built-in site template or file of that name (templates: %s)", strings.Join(kb.SiteIDs(), ", "))}
 		}
 		return nil, input.ReadError(input.Site, err)
 	}
@@ -176,13 +176,13 @@ func LoadSite(idOrPath string, kb *knowledge.Base) (*Site, error) {
 // ParseSite decodes and validates a site file. Every problem is reported
 // with file, line and field.
 func ParseSite(file string, data []byte, kb *knowledge.Base) (site *Site, err error) {
-	defer knowledge.Recover(file, "site file", &err)
+	defer input.Recover(file, "site file", &err)
 	var f siteFile
-	doc, err := knowledge.Decode(file, data, &f)
+	doc, err := input.Decode(file, data, &f)
 	if err != nil {
 		return nil, err
 	}
-	var errs knowledge.InputErrors
+	var errs input.Errors
 	bad := func(field string, path []any, format string, args ...any) {
 		errs = append(errs, doc.Errorf(field, path, format, args...))
 	}
@@ -411,7 +411,7 @@ func sourceIDs(kb *knowledge.Base) []string {
 // checkTopology refuses sites whose steady state does not exist or whose δ
 // values are undefined: a pool with no way out (the N piles up forever) and
 // a pool that nothing reaches (0/0 isotope ratio).
-func (s *Site) checkTopology(doc *knowledge.Doc) error {
+func (s *Site) checkTopology(doc *input.Doc) error {
 	n := len(s.Pools)
 	flows := make([][]int, n) // pool → pools it sends N to (Out as n)
 	for _, t := range s.Transfers {
@@ -441,7 +441,7 @@ func (s *Site) checkTopology(doc *knowledge.Doc) error {
 			}
 		}
 	}
-	var errs knowledge.InputErrors
+	var errs input.Errors
 	for i := range n {
 		if !exits[i] {
 			msg := fmt.Sprintf("pool %q has no way out of the site: its N would accumulate without limit, so there is no steady state (add a transfer from it, or from a pool it feeds, to out)", s.Pools[i])

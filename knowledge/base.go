@@ -4,6 +4,7 @@ import (
 	"embed"
 	"fmt"
 	"io/fs"
+	"nlens/knowledge/input"
 	"path"
 	"slices"
 	"sort"
@@ -77,20 +78,20 @@ func MustDefault() *Base {
 // sites/*.yaml at the root of fsys.
 func Load(fsys fs.FS) (*Base, error) {
 	b := &Base{sites: map[string]SiteFile{}}
-	var errs InputErrors
+	var errs input.Errors
 	collect := func(err error) {
 		if err == nil {
 			return
 		}
-		if list, ok := err.(InputErrors); ok {
+		if list, ok := err.(input.Errors); ok {
 			errs = append(errs, list...)
 			return
 		}
-		if e, ok := err.(*InputError); ok {
+		if e, ok := err.(*input.Error); ok {
 			errs = append(errs, e)
 			return
 		}
-		errs = append(errs, &InputError{Msg: err.Error()})
+		errs = append(errs, &input.Error{Msg: err.Error()})
 	}
 	collect(b.loadReferences(fsys))
 	collect(b.loadEffects(fsys))
@@ -107,12 +108,12 @@ func Load(fsys fs.FS) (*Base, error) {
 	return b, errs.Err()
 }
 
-func readDoc(fsys fs.FS, name string, v any) (*Doc, error) {
+func readDoc(fsys fs.FS, name string, v any) (*input.Doc, error) {
 	data, err := fs.ReadFile(fsys, name)
 	if err != nil {
-		return nil, &InputError{File: name, Msg: err.Error()}
+		return nil, &input.Error{File: name, Msg: err.Error()}
 	}
-	return Decode(name, data, v)
+	return input.Decode(name, data, v)
 }
 
 func (b *Base) loadSites(fsys fs.FS) error {
@@ -123,13 +124,13 @@ func (b *Base) loadSites(fsys fs.FS) error {
 	for _, name := range names {
 		data, err := fs.ReadFile(fsys, name)
 		if err != nil {
-			return &InputError{File: name, Msg: err.Error()}
+			return &input.Error{File: name, Msg: err.Error()}
 		}
 		id := strings.TrimSuffix(path.Base(name), ".yaml")
 		b.sites[id] = SiteFile{ID: id, Name: "knowledge/" + name, Data: data}
 	}
 	if len(b.sites) == 0 {
-		return &InputError{File: "sites/", Msg: "no site templates"}
+		return &input.Error{File: "sites/", Msg: "no site templates"}
 	}
 	return nil
 }
@@ -195,11 +196,11 @@ type citing struct {
 }
 
 func (b *Base) checkCitations() error {
-	var errs InputErrors
+	var errs input.Errors
 	for _, c := range b.citations() {
 		for _, k := range c.keys {
 			if _, ok := b.refByKey[k]; !ok {
-				errs = append(errs, &InputError{File: c.file, Line: c.line, Field: c.field, Msg: fmt.Sprintf("reference %q is not in references.yaml", k)})
+				errs = append(errs, &input.Error{File: c.file, Line: c.line, Field: c.field, Msg: fmt.Sprintf("reference %q is not in references.yaml", k)})
 			}
 		}
 	}

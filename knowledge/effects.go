@@ -3,6 +3,7 @@ package knowledge
 import (
 	"fmt"
 	"io/fs"
+	"nlens/knowledge/input"
 	"slices"
 	"strings"
 )
@@ -107,7 +108,7 @@ func (b *Base) loadEffects(fsys fs.FS) error {
 	if err != nil {
 		return err
 	}
-	var errs InputErrors
+	var errs input.Errors
 	b.effectByID = map[string]int{}
 	for i := range f.Effects {
 		e := &f.Effects[i]
@@ -148,7 +149,7 @@ func (b *Base) loadEffects(fsys fs.FS) error {
 	}
 	for _, p := range Processes {
 		if _, ok := b.effectByID[p]; !ok {
-			errs = append(errs, &InputError{File: doc.File, Field: "effects", Msg: fmt.Sprintf("process %q has no isotope effect", p)})
+			errs = append(errs, &input.Error{File: doc.File, Field: "effects", Msg: fmt.Sprintf("process %q has no isotope effect", p)})
 		}
 	}
 	for _, p := range []string{"denitrification", "uptake-nitrate", "immobilization-nitrate", "leaching-nitrate"} {
@@ -173,8 +174,8 @@ func (b *Base) loadEffects(fsys fs.FS) error {
 // loadFungalPhysiology validates the mycorrhizal_types section: one entry
 // for each type with fungi (ecto, ericoid, arbuscular) with an ε and its
 // range, and an entry for mixed that names the type it models.
-func (b *Base) loadFungalPhysiology(doc *Doc, list []FungalPhysiology) InputErrors {
-	var errs InputErrors
+func (b *Base) loadFungalPhysiology(doc *input.Doc, list []FungalPhysiology) input.Errors {
+	var errs input.Errors
 	b.fungal = map[string]FungalPhysiology{}
 	for i := range list {
 		fp := &list[i]
@@ -214,7 +215,7 @@ func (b *Base) loadFungalPhysiology(doc *Doc, list []FungalPhysiology) InputErro
 	}
 	for _, t := range MycorrhizalTypes {
 		if _, ok := b.fungal[t]; !ok && t != "none" {
-			errs = append(errs, &InputError{File: doc.File, Field: "mycorrhizal_types", Msg: fmt.Sprintf("mycorrhizal type %q has no fungal transfer effect", t)})
+			errs = append(errs, &input.Error{File: doc.File, Field: "mycorrhizal_types", Msg: fmt.Sprintf("mycorrhizal type %q has no fungal transfer effect", t)})
 		}
 	}
 	if len(errs) == 0 {

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io/fs"
 	"math"
+	"nlens/knowledge/input"
 	"slices"
 	"strings"
 )
@@ -88,7 +89,7 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 	if err != nil {
 		return err
 	}
-	var errs InputErrors
+	var errs input.Errors
 	at := func(path []any, format string, args ...any) {
 		errs = append(errs, doc.Errorf(fieldPath(path), path, format, args...))
 	}

@@ -3,6 +3,7 @@ package knowledge
 import (
 	"fmt"
 	"io/fs"
+	"nlens/knowledge/input"
 	"slices"
 	"strings"
 )
@@ -60,7 +61,7 @@ func (b *Base) loadMeasurements(fsys fs.FS) error {
 	if err != nil {
 		return err
 	}
-	var errs InputErrors
+	var errs input.Errors
 	b.measByID = map[string]int{}
 	for i := range f.Measurements {
 		m := &f.Measurements[i]

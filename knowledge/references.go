@@ -3,6 +3,7 @@ package knowledge
 import (
 	"fmt"
 	"io/fs"
+	"nlens/knowledge/input"
 	"regexp"
 	"strings"
 )
@@ -80,7 +81,7 @@ func (b *Base) loadReferences(fsys fs.FS) error {
 	if err != nil {
 		return err
 	}
-	var errs InputErrors
+	var errs input.Errors
 	b.refByKey = map[string]int{}
 	for i := range f.References {
 		r := &f.References[i]

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io/fs"
 	"math"
+	"nlens/knowledge/input"
 	"slices"
 )
 
@@ -97,7 +98,7 @@ func (b *Base) loadSources(fsys fs.FS) error {
 	if err != nil {
 		return err
 	}
-	var errs InputErrors
+	var errs input.Errors
 	b.sourceByID = map[string]int{}
 	for i := range f.Sources {
 		s := &f.Sources[i]

@@ -4,6 +4,7 @@ import (
 	"embed"
 	"fmt"
 	"math"
+	"nlens/knowledge/input"
 	"slices"
 	"strings"
 
@@ -266,13 +267,13 @@ type File struct {
 // defined replaces the earlier one.
 func Parse(kb *knowledge.Base, fs ...File) (set *Set, err error) {
 	set = &Set{PairPrior: math.NaN(), NoneShare: math.NaN()}
-	var errs knowledge.InputErrors
+	var errs input.Errors
 	for _, f := range fs {
 		var raw struct {
 			candidatesFile `yaml:",inline"`
 			contextFile    `yaml:",inline"`
 		}
-		doc, err := knowledge.Decode(f.Name, f.Data, &raw)
+		doc, err := input.Decode(f.Name, f.Data, &raw)
 		if err != nil {
 			return nil, err
 		}
@@ -336,17 +337,17 @@ func Parse(kb *knowledge.Base, fs ...File) (set *Set, err error) {
 		return nil, errs
 	}
 	if set.Candidate(None) == nil {
-		return nil, &knowledge.InputError{File: fs[0].Name, Field: "candidates", Msg: "required candidate \"none\" is missing"}
+		return nil, &input.Error{File: fs[0].Name, Field: "candidates", Msg: "required candidate \"none\" is missing"}
 	}
 	for _, id := range RequiredResponses {
 		for _, dir := range []string{More, Less} {
 			if set.Candidate(dir+"-"+id) == nil {
-				return nil, &knowledge.InputError{File: fs[0].Name, Field: "responses", Msg: fmt.Sprintf("required response %q is missing", id)}
+				return nil, &input.Error{File: fs[0].Name, Field: "responses", Msg: fmt.Sprintf("required response %q is missing", id)}
 			}
 		}
 	}
 	if math.IsNaN(set.PairPrior) || math.IsNaN(set.NoneShare) || set.SourceTemplate.ID == "" {
-		return nil, &knowledge.InputError{File: fs[0].Name, Msg: "none_share, pair_prior and source_candidate must be defined"}
+		return nil, &input.Error{File: fs[0].Name, Msg: "none_share, pair_prior and source_candidate must be defined"}
 	}
 	for _, s := range kb.Sources {
 		if s.Contexts.Empty() {
@@ -368,7 +369,7 @@ func Parse(kb *knowledge.Base, fs ...File) (set *Set, err error) {
 				continue
 			}
 			if set.Candidate(id) == nil {
-				errs = append(errs, &knowledge.InputError{File: r.File, Line: r.Line, Field: r.ID + ".candidates", Msg: fmt.Sprintf("unknown candidate %q", id)})
+				errs = append(errs, &input.Error{File: r.File, Line: r.Line, Field: r.ID + ".candidates", Msg: fmt.Sprintf("unknown candidate %q", id)})
 			}
 		}
 	}
@@ -376,8 +377,8 @@ func Parse(kb *knowledge.Base, fs ...File) (set *Set, err error) {
 }
 
 // expandResponse makes the more- and less- candidates of one response.
-func expandResponse(kb *knowledge.Base, doc *knowledge.Doc, file string, i int, r responseEntry) ([]Candidate, knowledge.InputErrors) {
-	var errs knowledge.InputErrors
+func expandResponse(kb *knowledge.Base, doc *input.Doc, file string, i int, r responseEntry) ([]Candidate, input.Errors) {
+	var errs input.Errors
 	path := []any{"responses", i}
 	field := fmt.Sprintf("responses[%d]", i)
 	at := func(key, format string, args ...any) {
@@ -442,8 +443,8 @@ func (s *Set) Candidate(id string) *Candidate {
 // checkCandidate validates one candidate. generated is set for candidates
 // made from responses or the source template, whose magnitude is filled in
 // by the maker.
-func checkCandidate(kb *knowledge.Base, doc *knowledge.Doc, c *Candidate, field string, path []any, generated bool) knowledge.InputErrors {
-	var errs knowledge.InputErrors
+func checkCandidate(kb *knowledge.Base, doc *input.Doc, c *Candidate, field string, path []any, generated bool) input.Errors {
+	var errs input.Errors
 	at := func(key, format string, args ...any) {
 		errs = append(errs, doc.Errorf(field+"."+key, append(append([]any(nil), path...), key), format, args...))
 	}
@@ -523,8 +524,8 @@ var drainages = []string{"well", "moderate", "poor"}
 // Drainages are the values a study's drainage may take.
 var Drainages = drainages
 
-func checkRule(kb *knowledge.Base, doc *knowledge.Doc, r *Rule, field string, path []any) knowledge.InputErrors {
-	var errs knowledge.InputErrors
+func checkRule(kb *knowledge.Base, doc *input.Doc, r *Rule, field string, path []any) input.Errors {
+	var errs input.Errors
 	at := func(key, format string, args ...any) {
 		errs = append(errs, doc.Errorf(field+"."+key, append(append([]any(nil), path...), key), format, args...))
 	}

@@ -5,6 +5,7 @@ package main
 import (
 	"bytes"
 	"errors"
+	"nlens/knowledge/input"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -194,7 +195,7 @@ func TestConditionNumberSurvivesWrapping(t *testing.T) {
 		if rel := ce.Cond/8.0e12 - 1; rel < -0.01 || rel > 0.01 {
 			t.Errorf("%s: condition number %g, want 8.0e12 within 1 %% (hand computation)", name, ce.Cond)
 		}
-		var ie *knowledge.InputError
+		var ie *input.Error
 		if !errors.As(err, &ie) || ie.Line != 6 || ie.Field != "transfers" {
 			t.Errorf("%s: the position is lost: %v", name, err)
 		}

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"nlens/knowledge/input"
 	"strings"
 
 	"github.com/spf13/cobra"
@@ -80,7 +81,7 @@ func runEnv(e *env, args []string) int {
 // exitCode: input problems (positioned file errors, bad flags, an
 // ill-conditioned site) are 1; anything nlens did not expect is 2.
 func exitCode(err error) int {
-	var ie *knowledge.InputError
+	var ie *input.Error
 	var ce *forward.ConditionError
 	var in internal
 	switch {
@@ -128,7 +129,7 @@ func wrapRun(f func() error) error {
 	if err == nil {
 		return nil
 	}
-	var ie *knowledge.InputError
+	var ie *input.Error
 	var ce *forward.ConditionError
 	var bi badInput
 	if errors.As(err, &ie) || errors.As(err, &ce) || errors.As(err, &bi) {

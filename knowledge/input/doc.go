@@ -9,6 +9,4 @@
 //
 // The package knows nothing of nlens's model: the knowledge base, site
 // files, study files, sample tables and rules files all go through it.
-// Package knowledge keeps the earlier names (InputError, InputErrors, Doc,
-// Decode, Flatten, Recover) as aliases.
 package input

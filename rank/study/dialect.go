@@ -6,13 +6,12 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"nlens/knowledge/input"
 	"strings"
 	"unicode/utf8"
 
 	"golang.org/x/text/encoding/charmap"
 	"golang.org/x/text/encoding/unicode"
-
-	"nlens/knowledge"
 )
 
 // Dialect is how a CSV samples file is written, as detected from its bytes
@@ -73,7 +72,7 @@ func decodeText(file string, data []byte) (text, encoding string, warn string, e
 	case bytes.HasPrefix(data, []byte{0xEF, 0xBB, 0xBF}):
 		data = data[3:]
 		if line, ok := firstInvalidUTF8(data); !ok {
-			return "", "", "", &knowledge.InputError{File: file, Line: line, Msg: "the file starts with a UTF-8 byte-order mark but this line is not UTF-8; save it again as CSV UTF-8"}
+			return "", "", "", &input.Error{File: file, Line: line, Msg: "the file starts with a UTF-8 byte-order mark but this line is not UTF-8; save it again as CSV UTF-8"}
 		}
 		return string(data), "UTF-8 with byte-order mark", "", nil
 	case bytes.HasPrefix(data, []byte{0xFF, 0xFE}), bytes.HasPrefix(data, []byte{0xFE, 0xFF}):
@@ -82,26 +81,26 @@ func decodeText(file string, data []byte) (text, encoding string, warn string, e
 			order, name = unicode.BigEndian, "UTF-16BE"
 		}
 		if len(data)%2 != 0 {
-			return "", "", "", &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("the file starts with a %s byte-order mark but has an odd number of bytes (%d); it is cut short or not UTF-16", name, len(data))}
+			return "", "", "", &input.Error{File: file, Line: 1, Msg: fmt.Sprintf("the file starts with a %s byte-order mark but has an odd number of bytes (%d); it is cut short or not UTF-16", name, len(data))}
 		}
 		out, derr := unicode.UTF16(order, unicode.ExpectBOM).NewDecoder().Bytes(data)
 		if derr != nil {
-			return "", "", "", &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("unreadable %s text: %v", name, derr)}
+			return "", "", "", &input.Error{File: file, Line: 1, Msg: fmt.Sprintf("unreadable %s text: %v", name, derr)}
 		}
 		if i := bytes.IndexRune(out, utf8.RuneError); i >= 0 {
-			return "", "", "", &knowledge.InputError{File: file, Line: 1 + bytes.Count(out[:i], []byte("\n")), Msg: fmt.Sprintf("this line is not valid %s (an unpaired surrogate)", name)}
+			return "", "", "", &input.Error{File: file, Line: 1 + bytes.Count(out[:i], []byte("\n")), Msg: fmt.Sprintf("this line is not valid %s (an unpaired surrogate)", name)}
 		}
 		return string(out), name + " with byte-order mark", "", nil
 	}
 	if looksUTF16(data) {
-		return "", "", "", &knowledge.InputError{File: file, Line: 1, Msg: "the file looks like UTF-16 text without a byte-order mark; save it as CSV UTF-8, or as UTF-16 with a byte-order mark (Excel's \"Unicode text\")"}
+		return "", "", "", &input.Error{File: file, Line: 1, Msg: "the file looks like UTF-16 text without a byte-order mark; save it as CSV UTF-8, or as UTF-16 with a byte-order mark (Excel's \"Unicode text\")"}
 	}
 	if _, ok := firstInvalidUTF8(data); ok {
 		return string(data), "UTF-8", "", nil
 	}
 	out, derr := charmap.Windows1252.NewDecoder().Bytes(data)
 	if derr != nil {
-		return "", "", "", &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("the text is neither UTF-8 nor Windows-1252: %v", derr)}
+		return "", "", "", &input.Error{File: file, Line: 1, Msg: fmt.Sprintf("the text is neither UTF-8 nor Windows-1252: %v", derr)}
 	}
 	line, _ := firstInvalidUTF8(data)
 	warn = fmt.Sprintf("%s:%d: the file is not UTF-8 (first on this line) and has no byte-order mark, so it was read as Windows-1252, the encoding of Excel's plain CSV on Windows; if names with accents look wrong, save it as CSV UTF-8", file, line)
@@ -176,12 +175,12 @@ func csvRows(file, text string, sep rune, limit int) (rows []gridRow, errs []err
 	return rows, errs
 }
 
-func csvError(file string, err error) *knowledge.InputError {
+func csvError(file string, err error) *input.Error {
 	var pe *csv.ParseError
 	if errors.As(err, &pe) {
-		return &knowledge.InputError{File: file, Line: pe.StartLine, Msg: fmt.Sprintf("unreadable CSV row: %v", pe.Err)}
+		return &input.Error{File: file, Line: pe.StartLine, Msg: fmt.Sprintf("unreadable CSV row: %v", pe.Err)}
 	}
-	return &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("unreadable CSV: %v", err)}
+	return &input.Error{File: file, Line: 1, Msg: fmt.Sprintf("unreadable CSV: %v", err)}
 }
 
 // detectWindow is how many rows separator detection reads: the header must
@@ -203,7 +202,7 @@ func readCSV(file string, data []byte, cols *columnSet, headerRow int) (*table, 
 		d.CROnly = true
 	}
 	if strings.TrimSpace(text) == "" {
-		return nil, &knowledge.InputError{File: file, Line: 1, Msg: "the samples file is empty; expected a header row sample,group,observable,value"}
+		return nil, &input.Error{File: file, Line: 1, Msg: "the samples file is empty; expected a header row sample,group,observable,value"}
 	}
 	type candidate struct {
 		sep  rune
@@ -234,7 +233,7 @@ func readCSV(file string, data []byte, cols *columnSet, headerRow int) (*table, 
 		for _, c := range found {
 			ways = append(ways, fmt.Sprintf("%s-separated with the header on line %d", separatorName(c.sep), c.head.pos))
 		}
-		return nil, &knowledge.InputError{File: file, Line: found[0].head.pos, Msg: fmt.Sprintf("the file can be read in more than one way (%s); keep one separator in the file", strings.Join(ways, "; or "))}
+		return nil, &input.Error{File: file, Line: found[0].head.pos, Msg: fmt.Sprintf("the file can be read in more than one way (%s); keep one separator in the file", strings.Join(ways, "; or "))}
 	}
 	d.Separator = best.sep
 	rows, errs := csvRows(file, text, best.sep, 0)
@@ -249,7 +248,7 @@ func readCSV(file string, data []byte, cols *columnSet, headerRow int) (*table, 
 		if len(errs) > 0 {
 			return t, nil
 		}
-		return nil, &knowledge.InputError{File: file, Line: 1, Msg: "the samples file is empty; expected a header row sample,group,observable,value"}
+		return nil, &input.Error{File: file, Line: 1, Msg: "the samples file is empty; expected a header row sample,group,observable,value"}
 	}
 	return t, nil
 }

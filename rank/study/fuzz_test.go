@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"math"
+	"nlens/knowledge/input"
 	"os"
 	"path/filepath"
 	"strings"
@@ -35,7 +36,7 @@ import (
 //
 //   - the parser never panics;
 //   - a rejection is a positioned error: errors.As finds a
-//     *knowledge.InputError, and every InputError names one of the files
+//     *input.Error, and every InputError names one of the files
 //     involved (the study, the site file or the samples CSV it refers to)
 //     and says what is wrong, with a 1-based line that is not past the end
 //     of that file's text. Line may be 0 only where no line is to blame:
@@ -141,7 +142,7 @@ func FuzzParseSamples(f *testing.F) {
 				return // a workbook (zip) or an old .xls: checked by FuzzParseSpreadsheet
 			}
 			checkPositioned(t, err, map[string][]byte{fuzzCSVFile: data})
-			for _, e := range knowledge.Flatten(err) {
+			for _, e := range input.Flatten(err) {
 				if e.Line == 0 {
 					t.Errorf("CSV error without a line: %v", e)
 				}
@@ -160,11 +161,11 @@ func FuzzParseSamples(f *testing.F) {
 // texts maps each file an error may name to its text.
 func checkPositioned(t *testing.T, err error, texts map[string][]byte) {
 	t.Helper()
-	var first *knowledge.InputError
+	var first *input.Error
 	if !errors.As(err, &first) {
-		t.Fatalf("rejection is not a *knowledge.InputError: %T %v", err, err)
+		t.Fatalf("rejection is not a *input.Error: %T %v", err, err)
 	}
-	for _, e := range knowledge.Flatten(err) {
+	for _, e := range input.Flatten(err) {
 		text, known := texts[e.File]
 		lines := inputtest.LineCount(text)
 		switch {

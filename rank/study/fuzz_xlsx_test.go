@@ -2,6 +2,7 @@ package study
 
 import (
 	"errors"
+	"nlens/knowledge/input"
 	"strings"
 	"testing"
 
@@ -25,9 +26,9 @@ import (
 // The property, for every input:
 //
 //   - the reader never panics, and no panic is turned into an "internal
-//     error" message on the way (knowledge.Recover);
+//     error" message on the way (input.Recover);
 //   - a rejection is an input error: errors.As finds a
-//     *knowledge.InputError; every problem names the workbook and says
+//     *input.Error; every problem names the workbook and says
 //     what is wrong; a CellError names a sheet and a row ≥ 1;
 //   - no message holds a control character (issue 15);
 //   - an accepted workbook gives finite statistics of n ≥ 2 per group.
@@ -141,11 +142,11 @@ func checkSamplesOutcome(t *testing.T, s *Samples, err error, file string) {
 			t.Errorf("ReadSamples returned samples and an error: %v", err)
 		}
 		checkMessageClean(t, err)
-		var ie *knowledge.InputError
+		var ie *input.Error
 		if !errors.As(err, &ie) {
 			t.Fatalf("rejection is not an input error: %T %v", err, err)
 		}
-		for _, e := range knowledge.Flatten(err) {
+		for _, e := range input.Flatten(err) {
 			if e.File != file || e.Msg == "" {
 				t.Errorf("problem names %q or says nothing: %#v", e.File, e)
 			}

@@ -2,12 +2,11 @@ package study
 
 import (
 	"fmt"
+	"nlens/knowledge/input"
 	"strconv"
 	"strings"
 	"unicode"
 	"unicode/utf8"
-
-	"nlens/knowledge"
 )
 
 // grid is a samples table as it was read: the text of each non-blank row of
@@ -35,12 +34,12 @@ func (r gridRow) cell(col int) string {
 }
 
 // errAt returns a problem at column col (0-based; -1 for the whole row) of
-// the row at pos: a *knowledge.InputError with the line for a CSV file, a
+// the row at pos: a *input.Error with the line for a CSV file, a
 // *CellError with sheet and cell for a workbook.
 func (g *grid) errAt(pos, col int, field, format string, args ...any) error {
 	msg := fmt.Sprintf(format, args...)
 	if g.sheet == "" {
-		return &knowledge.InputError{File: g.file, Line: pos, Field: field, Msg: msg}
+		return &input.Error{File: g.file, Line: pos, Field: field, Msg: msg}
 	}
 	return &CellError{File: g.file, Sheet: g.sheet, Row: pos, Col: col, Field: field, Msg: msg}
 }
@@ -54,13 +53,13 @@ func (g *grid) where(pos int) string {
 	return "row " + strconv.Itoa(pos)
 }
 
-// CellError is a problem in a spreadsheet: like knowledge.InputError, with
+// CellError is a problem in a spreadsheet: like input.Error, with
 // the sheet and the cell (A1 style) in place of a line. Col is 0-based and
 // -1 when the whole row is meant; Row is 1-based.
 //
 //	results.xlsx: δ15N!D17: value: expected a number, got "n.d."
 //
-// Unwrap returns the equivalent *knowledge.InputError (Line = Row), so
+// Unwrap returns the equivalent *input.Error (Line = Row), so
 // errors.As and the exit codes treat a CellError as bad input.
 type CellError struct {
 	File, Sheet string
@@ -77,12 +76,12 @@ func (e *CellError) Error() string {
 		at += " row " + strconv.Itoa(e.Row)
 	}
 	// Written as an InputError with no line whose file is "FILE: SHEET!CELL".
-	return (&knowledge.InputError{File: e.File + ": " + at, Field: e.Field, Msg: e.Msg}).Error()
+	return (&input.Error{File: e.File + ": " + at, Field: e.Field, Msg: e.Msg}).Error()
 }
 
-// Unwrap gives the problem as a knowledge.InputError positioned at the row.
+// Unwrap gives the problem as a input.Error positioned at the row.
 func (e *CellError) Unwrap() error {
-	return &knowledge.InputError{File: e.File, Line: e.Row, Field: e.Field, Msg: e.Msg}
+	return &input.Error{File: e.File, Line: e.Row, Field: e.Field, Msg: e.Msg}
 }
 
 // Cell returns the A1-style name of the cell, or "" for a whole row.
@@ -139,7 +138,7 @@ func escapeText(s string) string {
 }
 
 // problemList is a list of problems of which some are CellErrors (a list of
-// InputErrors only is returned as knowledge.InputErrors).
+// InputErrors only is returned as input.Errors).
 type problemList []error
 
 func (l problemList) Error() string {
@@ -150,7 +149,7 @@ func (l problemList) Error() string {
 	return strings.Join(parts, "\n")
 }
 
-// Unwrap lets errors.As find the first problem, and knowledge.Flatten all.
+// Unwrap lets errors.As find the first problem, and input.Flatten all.
 func (l problemList) Unwrap() []error { return l }
 
 // maxProblems is how many problems a samples file reports before it stops:
@@ -174,7 +173,7 @@ func (p *problems) add(err error) {
 
 func (p *problems) full() bool { return len(p.list) >= maxProblems }
 
-// err returns nil, the one problem, knowledge.InputErrors when every
+// err returns nil, the one problem, input.Errors when every
 // problem is an InputError, or a problemList.
 func (p *problems) err() error {
 	if len(p.list) == 0 {
@@ -185,8 +184,8 @@ func (p *problems) err() error {
 		last := list[len(list)-1]
 		var more error
 		switch e := last.(type) {
-		case *knowledge.InputError:
-			more = &knowledge.InputError{File: e.File, Line: e.Line, Msg: fmt.Sprintf("%d more problems after this one are not shown", p.dropped)}
+		case *input.Error:
+			more = &input.Error{File: e.File, Line: e.Line, Msg: fmt.Sprintf("%d more problems after this one are not shown", p.dropped)}
 		case *CellError:
 			more = &CellError{File: e.File, Sheet: e.Sheet, Row: e.Row, Col: -1, Msg: fmt.Sprintf("%d more problems after this one are not shown", p.dropped)}
 		}
@@ -197,9 +196,9 @@ func (p *problems) err() error {
 	if len(list) == 1 {
 		return list[0]
 	}
-	ies := make(knowledge.InputErrors, 0, len(list))
+	ies := make(input.Errors, 0, len(list))
 	for _, e := range list {
-		ie, ok := e.(*knowledge.InputError)
+		ie, ok := e.(*input.Error)
 		if !ok {
 			return problemList(list)
 		}

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"fmt"
 	"math"
+	"nlens/knowledge/input"
 	"path/filepath"
 	"slices"
 	"strconv"
@@ -12,7 +13,6 @@ import (
 	"gonum.org/v1/gonum/stat"
 
 	"nlens/forward"
-	"nlens/knowledge"
 )
 
 // SampleGroup is one group's statistics of one observable, from the rows of
@@ -124,9 +124,9 @@ func ParseSamples(file string, data []byte, site *forward.Site, opt Options) (ro
 // format (CSV or .xlsx, from the bytes and the name), sheet, header row,
 // the lab's column names and values, and the default unit.
 func ReadSamples(file string, data []byte, spec *SamplesSpec, site *forward.Site, opt Options) (s *Samples, err error) {
-	defer knowledge.Recover(file, "samples file", &err)
+	defer input.Recover(file, "samples file", &err)
 	if len(data) > MaxSamplesBytes {
-		return nil, &knowledge.InputError{File: file, Msg: fmt.Sprintf("the samples file has %d bytes; nlens reads at most %d MiB", len(data), MaxSamplesBytes>>20)}
+		return nil, &input.Error{File: file, Msg: fmt.Sprintf("the samples file has %d bytes; nlens reads at most %d MiB", len(data), MaxSamplesBytes>>20)}
 	}
 	cols := spec.columnSet()
 	var t *table
@@ -135,11 +135,11 @@ func ReadSamples(file string, data []byte, spec *SamplesSpec, site *forward.Site
 		t, err = readWorkbook(file, data, spec.Sheet)
 	case "csv":
 		if spec.Sheet != "" {
-			return nil, &knowledge.InputError{File: file, Line: 1, Msg: fmt.Sprintf("sheet %q is given, but this is a CSV file, which has no sheets", spec.Sheet)}
+			return nil, &input.Error{File: file, Line: 1, Msg: fmt.Sprintf("sheet %q is given, but this is a CSV file, which has no sheets", spec.Sheet)}
 		}
 		t, err = readCSV(file, data, cols, spec.HeaderRow)
 	default:
-		return nil, &knowledge.InputError{File: file, Msg: kind}
+		return nil, &input.Error{File: file, Msg: kind}
 	}
 	if err != nil {
 		return nil, err

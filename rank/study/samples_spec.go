@@ -2,6 +2,7 @@ package study
 
 import (
 	"fmt"
+	"nlens/knowledge/input"
 	"path/filepath"
 	"slices"
 	"sort"
@@ -11,7 +12,6 @@ import (
 	"go.yaml.in/yaml/v3"
 
 	"nlens/forward"
-	"nlens/knowledge"
 )
 
 // SamplesSpec is the samples entry of a study file (DESIGN §6): a file name
@@ -272,17 +272,17 @@ func (s *SamplesSpec) headerRowError(g *grid) error {
 		what = fmt.Sprintf("row %d of sheet %s is empty", s.HeaderRow, sheetRef(g.sheet))
 	}
 	if s.studyFile == "" {
-		return &knowledge.InputError{File: g.file, Line: 1, Field: "header_row", Msg: what + "; the header must be there"}
+		return &input.Error{File: g.file, Line: 1, Field: "header_row", Msg: what + "; the header must be there"}
 	}
-	return &knowledge.InputError{File: s.studyFile, Line: s.lines["header_row"], Field: "samples.header_row", Msg: what + "; the header must be there"}
+	return &input.Error{File: s.studyFile, Line: s.lines["header_row"], Field: "samples.header_row", Msg: what + "; the header must be there"}
 }
 
 // specErrors returns the problems of the entry, positioned in the study
 // file.
 func (s *SamplesSpec) specErrors(studyFile string) error {
-	var errs knowledge.InputErrors
+	var errs input.Errors
 	for _, p := range s.problems {
-		errs = append(errs, &knowledge.InputError{File: studyFile, Line: p.line, Field: p.field, Msg: p.msg})
+		errs = append(errs, &input.Error{File: studyFile, Line: p.line, Field: p.field, Msg: p.msg})
 	}
 	return errs.Err()
 }
@@ -290,7 +290,7 @@ func (s *SamplesSpec) specErrors(studyFile string) error {
 // load reads the samples file the study names, relative to the study
 // file's folder. When the file cannot be read, unread says so and err is
 // nil, so that the study can go on to report its other problems.
-func (s *SamplesSpec) load(doc *knowledge.Doc, readFile func(string) ([]byte, error), site *forward.Site, opt Options) (res *Samples, unread *knowledge.InputError, err error) {
+func (s *SamplesSpec) load(doc *input.Doc, readFile func(string) ([]byte, error), site *forward.Site, opt Options) (res *Samples, unread *input.Error, err error) {
 	if err := s.specErrors(doc.File); err != nil {
 		return nil, nil, err
 	}

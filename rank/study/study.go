@@ -227,13 +227,13 @@ func Load(path string, kb *knowledge.Base, opt Options) (*Study, error) {
 // Parse reads a study from its text. readFile resolves the site file and
 // samples CSV named in the study (relative to the study file's directory).
 func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile func(string) ([]byte, error)) (st *Study, err error) {
-	defer knowledge.Recover(file, "study", &err)
+	defer input.Recover(file, "study", &err)
 	var f studyFile
-	doc, err := knowledge.Decode(file, data, &f)
+	doc, err := input.Decode(file, data, &f)
 	if err != nil {
 		return nil, err
 	}
-	var errs knowledge.InputErrors
+	var errs input.Errors
 	bad := func(field string, path []any, format string, args ...any) {
 		errs = append(errs, doc.Errorf(field, path, format, args...))
 	}
@@ -389,7 +389,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 					groups[r.Group] = map[string]groupStat{}
 				}
 				if prev, dup := groups[r.Group][r.Observable]; dup {
-					errs = append(errs, &knowledge.InputError{File: path, Line: r.Line, Field: "observable", Msg: fmt.Sprintf("group %q already has %s from %s line %d; give each group's observable in one place", r.Group, r.Observable, prev.file, prev.line)})
+					errs = append(errs, &input.Error{File: path, Line: r.Line, Field: "observable", Msg: fmt.Sprintf("group %q already has %s from %s line %d; give each group's observable in one place", r.Group, r.Observable, prev.file, prev.line)})
 					continue
 				}
 				groups[r.Group][r.Observable] = groupStat{r.Stat, path, r.Line, r.Samples}
@@ -576,8 +576,8 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 
 // checkSeries refuses a series whose comparisons are neither repeated
 // years of one treatment nor dose levels of one addition (DESIGN §6).
-func checkSeries(doc *knowledge.Doc, cs []Comparison) knowledge.InputErrors {
-	var errs knowledge.InputErrors
+func checkSeries(doc *input.Doc, cs []Comparison) input.Errors {
+	var errs input.Errors
 	first := map[string]int{}
 	for i, c := range cs {
 		if c.Series == "" {

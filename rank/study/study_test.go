@@ -3,6 +3,7 @@ package study
 import (
 	"errors"
 	"math"
+	"nlens/knowledge/input"
 	"os"
 	"path/filepath"
 	"strings"
@@ -218,7 +219,7 @@ samples: rows.csv
 			if !strings.Contains(err.Error(), tt.want) {
 				t.Errorf("got  %q\nwant %q", err.Error(), tt.want)
 			}
-			var ie *knowledge.InputError
+			var ie *input.Error
 			if !errors.As(err, &ie) {
 				t.Errorf("error is not positioned: %T", err)
 			}

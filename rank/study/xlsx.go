@@ -5,12 +5,11 @@ import (
 	"cmp"
 	"errors"
 	"fmt"
+	"nlens/knowledge/input"
 	"slices"
 	"strings"
 
 	"github.com/xuri/excelize/v2"
-
-	"nlens/knowledge"
 )
 
 // maxUnzippedBytes bounds what a workbook may unpack to (its parts as the
@@ -52,20 +51,20 @@ func readWorkbook(file string, data []byte, sheet string) (t *table, err error) 
 		if strings.Contains(err.Error(), "unzip size") {
 			msg = fmt.Sprintf("the workbook unpacks to more than %d MiB, the most nlens reads", maxUnzippedBytes>>20)
 		}
-		return nil, &knowledge.InputError{File: file, Msg: msg}
+		return nil, &input.Error{File: file, Msg: msg}
 	}
 	defer f.Close()
 	sheets := f.GetSheetList()
 	if len(sheets) == 0 {
-		return nil, &knowledge.InputError{File: file, Msg: "the workbook has no sheets"}
+		return nil, &input.Error{File: file, Msg: "the workbook has no sheets"}
 	}
 	name, err := pickSheet(f, sheets, sheet)
 	if err != nil {
-		return nil, &knowledge.InputError{File: file, Msg: err.Error()}
+		return nil, &input.Error{File: file, Msg: err.Error()}
 	}
 	rows, err := f.GetRows(name, excelize.Options{RawCellValue: true})
 	if err != nil {
-		return nil, &knowledge.InputError{File: file, Msg: fmt.Sprintf("sheet %s is unreadable: %s", sheetRef(name), escapeText(err.Error()))}
+		return nil, &input.Error{File: file, Msg: fmt.Sprintf("sheet %s is unreadable: %s", sheetRef(name), escapeText(err.Error()))}
 	}
 	wb := &workbook{f: f, sheet: name, merged: map[[2]int]*mergeRange{}}
 	t = &table{grid: &grid{file: file, sheet: name}, book: wb}
@@ -118,7 +117,7 @@ func pickSheet(f *excelize.File, sheets []string, want string) (string, error) {
 func (wb *workbook) fillMerged(t *table, rows [][]string) error {
 	merges, err := wb.f.GetMergeCells(wb.sheet)
 	if err != nil {
-		return &knowledge.InputError{File: t.grid.file, Msg: fmt.Sprintf("the merged cells of sheet %s are unreadable: %s", sheetRef(wb.sheet), escapeText(err.Error()))}
+		return &input.Error{File: t.grid.file, Msg: fmt.Sprintf("the merged cells of sheet %s are unreadable: %s", sheetRef(wb.sheet), escapeText(err.Error()))}
 	}
 	width := 0
 	for _, r := range rows {
@@ -129,7 +128,7 @@ func (wb *workbook) fillMerged(t *table, rows [][]string) error {
 		c1, r1, err1 := excelize.CellNameToCoordinates(m.GetStartAxis())
 		c2, r2, err2 := excelize.CellNameToCoordinates(m.GetEndAxis())
 		if err := errors.Join(err1, err2); err != nil {
-			return &knowledge.InputError{File: t.grid.file, Msg: fmt.Sprintf("sheet %s has an unreadable merged range %q", sheetRef(wb.sheet), m.GetStartAxis()+":"+m.GetEndAxis())}
+			return &input.Error{File: t.grid.file, Msg: fmt.Sprintf("sheet %s has an unreadable merged range %q", sheetRef(wb.sheet), m.GetStartAxis()+":"+m.GetEndAxis())}
 		}
 		mr := &mergeRange{r1: min(r1, r2) - 1, c1: min(c1, c2) - 1, r2: max(r1, r2) - 1, c2: max(c1, c2) - 1}
 		mr.name = cellName(mr.c1, mr.r1+1) + ":" + cellName(mr.c2, mr.r2+1)
@@ -143,7 +142,7 @@ func (wb *workbook) fillMerged(t *table, rows [][]string) error {
 					continue
 				}
 				if budget--; budget < 0 {
-					return &knowledge.InputError{File: t.grid.file, Msg: fmt.Sprintf("sheet %s has overlapping merged ranges", sheetRef(wb.sheet))}
+					return &input.Error{File: t.grid.file, Msg: fmt.Sprintf("sheet %s has overlapping merged ranges", sheetRef(wb.sheet))}
 				}
 				for len(rows[r]) <= c {
 					rows[r] = append(rows[r], "")

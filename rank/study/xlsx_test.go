@@ -2,11 +2,11 @@ package study
 
 import (
 	"errors"
+	"nlens/knowledge/input"
 	"slices"
 	"strings"
 	"testing"
 
-	"nlens/knowledge"
 	"nlens/rank/study/sampletest"
 )
 
@@ -163,7 +163,7 @@ func TestWorkbookBadCells(t *testing.T) {
 			if err.Error() != tt.want {
 				t.Errorf("got  %q\nwant %q", err.Error(), tt.want)
 			}
-			var ie *knowledge.InputError
+			var ie *input.Error
 			if !errors.As(err, &ie) {
 				t.Errorf("%T is not an input error to errors.As", err)
 			}
