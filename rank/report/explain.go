@@ -316,7 +316,7 @@ func Observed(w io.Writer, st *study.Study) error {
 			if a.D15N != nil {
 				d = fmt.Sprintf("δ15N %s ‰ measured", signed(*a.D15N, 1))
 			}
-			ew.printf("declared addition: %s %s kg N/ha/yr (%s)\n", a.Source, num(a.RateKgPerHaYr), d)
+			ew.printf("%s\n", wrap(fmt.Sprintf("declared addition: %s %s kg N/ha/yr (%s)", a.Source, num(a.RateKgPerHaYr), d), 78))
 		}
 		if len(c.Management) > 0 {
 			ew.printf("management: %s\n", strings.Join(c.Management, ", "))
