@@ -58,6 +58,11 @@ type CalibrationCase struct {
 	// truth value, out of Intervals (for the truth hypothesis, when ranked).
 	Covered, Intervals int
 	Pair               bool
+	// CountedWithNone: the truth was found unable to move the observables
+	// beyond their standard errors anywhere in its prior range, so explain
+	// counted it with none (DESIGN §5); none is then the right answer and
+	// Rank is none's.
+	CountedWithNone bool
 }
 
 // Calibration summarises a run.
@@ -321,6 +326,12 @@ func calibrationCase(ctx context.Context, kb *knowledge.Base, set *rules.Set, op
 			continue
 		}
 		out.Rank, out.TruthPosterior = r, h.Posterior
+		if h.Indistinguishable && h.ID != rules.None {
+			// Counted with none: explain's answer for it is none's.
+			out.CountedWithNone = true
+			out.Rank = slices.IndexFunc(cr.Hypotheses, func(h Hypothesis) bool { return h.ID == rules.None })
+			out.TruthPosterior = cr.Hypotheses[out.Rank].Posterior
+		}
 		for _, m := range h.Magnitudes {
 			a := slices.IndexFunc(truth, func(t option) bool { return t.c.ID == m.Candidate })
 			if a < 0 {
@@ -411,7 +422,7 @@ func summarise(cases []CalibrationCase) *Calibration {
 		b := min(int(k.TopPosterior*10), 9)
 		bins[b].N++
 		bins[b].Confidence += k.TopPosterior
-		if k.Top == k.Truth {
+		if k.Rank == 0 {
 			bins[b].Accuracy++
 		}
 		covered += k.Covered

@@ -14,7 +14,11 @@ import (
 func logCalibration(t *testing.T, c *Calibration) {
 	t.Helper()
 	for _, k := range c.Cases {
-		t.Logf("%-27s %-42s %4.0f y  truth %-45s rank %2d  top %-40s %.2f  dist %5.1f  cov %d/%d", k.Site, k.Treatment, k.Years, k.Truth, k.Rank+1, k.Top, k.TopPosterior, k.Distance, k.Covered, k.Intervals)
+		with := ""
+		if k.CountedWithNone {
+			with = " (counted with none)"
+		}
+		t.Logf("%-27s %-42s %4.0f y  truth %-45s rank %2d%s  top %-40s %.2f  dist %5.1f  cov %d/%d", k.Site, k.Treatment, k.Years, k.Truth, k.Rank+1, with, k.Top, k.TopPosterior, k.Distance, k.Covered, k.Intervals)
 	}
 	t.Logf("top-1 %.2f, top-2 %.2f, top-1 of the %d identifiable %.2f; ECE %.3f; 90 %% interval coverage %.2f (%d intervals)", c.Top1, c.Top2, c.Identifiable, c.Top1Identifiable, c.ECE, c.Coverage, c.Intervals)
 	for _, b := range c.Reliability {

@@ -28,15 +28,16 @@ import (
 // allowedImports lists, for each package, the module packages it may
 // import (knowledge/input counts as part of knowledge).
 var allowedImports = map[string][]string{
-	"cmd/nlens":           {"*"},
-	"rank/report":         {"rank", "rank/study", "forward", "knowledge", "knowledge/input"},
-	"rank":                {"rank/study", "forward", "rules", "knowledge", "knowledge/input"},
-	"rank/study":          {"forward", "rules", "knowledge", "knowledge/input"},
-	"rules":               {"knowledge", "knowledge/input"},
-	"forward":             {"knowledge", "knowledge/input"},
-	"knowledge":           {"knowledge/input"},
-	"knowledge/input":     {},
-	"knowledge/inputtest": {},
+	"cmd/nlens":             {"*"},
+	"rank/report":           {"rank", "rank/study", "forward", "knowledge", "knowledge/input"},
+	"rank":                  {"rank/study", "forward", "rules", "knowledge", "knowledge/input"},
+	"rank/study":            {"forward", "rules", "knowledge", "knowledge/input"},
+	"rules":                 {"knowledge", "knowledge/input"},
+	"forward":               {"knowledge", "knowledge/input"},
+	"knowledge":             {"knowledge/input"},
+	"knowledge/input":       {},
+	"knowledge/inputtest":   {},
+	"rank/study/sampletest": {},
 }
 
 // commandOnly are outside packages only commands may import.

@@ -157,9 +157,15 @@ func (e *engine) siteIsCertain() bool {
 
 // drawsFor returns how many draws a hypothesis uses: only the nominal one
 // when the site is certain and no knob draws a source δ; otherwise all of
-// them, at most pairDraws for a pair.
+// them, at most pairDraws for a pair and at most the larger of
+// Options.MaxDraws and Options.Draws for any hypothesis with a magnitude
+// (the treatment alone, one forward run per draw, may use every draw:
+// see treatmentAloneDraws).
 func (e *engine) drawsFor(knobs []*knob) int {
 	n := len(e.draws)
+	if len(knobs) > 0 {
+		n = min(n, max(e.opt.MaxDraws, e.opt.Draws))
+	}
 	if len(knobs) > 1 {
 		n = min(n, pairDraws)
 	}

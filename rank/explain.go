@@ -352,6 +352,12 @@ const (
 	// estimate, only noisier, and it adds at most that to the error of the
 	// leading posteriors).
 	settledPosterior = 0.02
+	// treatmentAloneDraws: the treatment alone has no magnitude to
+	// integrate, so its evidence costs one forward run per draw, and it
+	// may take this many times MaxDraws when its evidence is what keeps
+	// the Monte Carlo error above target (its likelihood, with nothing to
+	// adjust, rests on the few draws that happen to fit).
+	treatmentAloneDraws = 8
 )
 
 // evaluateOrReuse scores a hypothesis, or returns its score from an earlier
@@ -379,13 +385,22 @@ func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Bas
 		if err != nil {
 			return nil, nil, err
 		}
-		if sc.worst <= mcseTarget || len(e.draws) >= maxDraws || opt.FixedDraws {
+		next := min(2*len(e.draws), maxDraws)
+		if len(e.draws) >= maxDraws {
+			// Only the treatment alone can take more draws; worth it
+			// while its own evidence is the noisy one.
+			next = 0
+			if sc.noneNoise > mcseTarget/2 {
+				next = min(2*len(e.draws), treatmentAloneDraws*maxDraws)
+			}
+		}
+		if sc.worst <= mcseTarget || next <= len(e.draws) || opt.FixedDraws {
 			if sc.worst > mcseTarget && !opt.FixedDraws {
-				sc.warnf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", sc.worst, len(e.draws), mcseTarget)
+				sc.warnf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", sc.worst, maxDraws, mcseTarget)
 			}
 			return e.report(ctx, sc, u, prog)
 		}
-		if err := e.grow(newWorker(e.site), min(2*len(e.draws), maxDraws)); err != nil {
+		if err := e.grow(newWorker(e.site), next); err != nil {
 			return nil, nil, err
 		}
 	}
@@ -402,8 +417,11 @@ type scoring struct {
 	leading       []int
 	noFit         bool
 	// worst is the largest Monte Carlo error of the top posteriors.
-	worst    float64
-	warnings []string
+	worst float64
+	// noneNoise is the treatment alone's own share of that error,
+	// p·√relVar.
+	noneNoise float64
+	warnings  []string
 }
 
 func (sc *scoring) warnf(format string, args ...any) {
@@ -633,6 +651,7 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 	for i := range min(mcseTop, len(joint)) {
 		sc.worst = math.Max(sc.worst, joint[i].PosteriorMCSE)
 	}
+	sc.noneNoise = hyps[0].Posterior * math.Sqrt(entries[0].s.relVar)
 	return sc, nil
 }
 
@@ -684,7 +703,12 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 	}
 	prog.add(4)
 	for k := range out {
-		out[k].Draws = len(e.draws)
+		out[k].Draws = min(len(e.draws), max(e.opt.MaxDraws, e.opt.Draws))
+		for _, en := range sc.sorted {
+			if en.s.id == rules.None {
+				out[k].TreatmentAloneDraws = en.s.nd
+			}
+		}
 	}
 	if u.series == "" {
 		return out, nil, nil

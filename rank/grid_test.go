@@ -2,6 +2,7 @@ package rank
 
 import (
 	"math"
+	"strings"
 	"testing"
 
 	"nlens/knowledge"
@@ -35,7 +36,7 @@ func TestSplineAccuracy(t *testing.T) {
 			}
 			knobs = append(knobs, k)
 		}
-		s := e.evaluate(w, "check", knobs, nil)
+		s := e.evaluate(w, strings.Join(ids, "+"), knobs, nil) // a fresh id: evaluate caches by id
 		got := make([]float64, len(e.obs))
 		theta := make([]float64, len(knobs))
 		var worst float64

@@ -179,7 +179,9 @@ func mustSite(t *testing.T, id string) *forward.Site {
 }
 
 // Truth recovery without noise on the nominal site: every truth the data
-// can identify ranks first, the others in the top two; no pair outranks a
+// can identify ranks first; one too close to the treatment alone keeps a
+// posterior of at least 0.01 (or is counted with none) and no other
+// hypothesis gets more than 0.9; no pair outranks a
 // generating single; no declared addition and no source outside its
 // context is ranked.
 func TestRecoversTruthNoiseFree(t *testing.T) {
@@ -196,13 +198,23 @@ func TestRecoversTruthNoiseFree(t *testing.T) {
 			checkDeclaredAndContext(t, c, tr)
 			r := rankOf(c, want)
 			dist := identifiable(t, tr, 1)
+			top := c.Hypotheses[0]
 			switch {
 			case want == "none" || dist >= identifiableSE:
 				if r != 0 {
-					t.Errorf("%s (%.1f SE from the treatment alone) at rank %d; top %s %.2f", want, dist, r+1, c.Hypotheses[0].ID, c.Hypotheses[0].Posterior)
+					t.Errorf("%s (%.1f SE from the treatment alone) at rank %d; top %s %.2f", want, dist, r+1, top.ID, top.Posterior)
 				}
-			case r < 0 || r > 1:
-				t.Errorf("%s (only %.1f SE from the treatment alone) at rank %d, want the top two", want, dist, r+1)
+			case r < 0:
+				t.Errorf("%s not ranked", want)
+			case r > 0 && top.Posterior > 0.9:
+				// Too close to the treatment alone to be identified: the
+				// answer must stay open, not name another with confidence.
+				t.Errorf("%s is only %.1f SE from the treatment alone, yet %s is given %.2f", want, dist, top.ID, top.Posterior)
+			case !c.Hypotheses[r].Indistinguishable && c.Hypotheses[r].Posterior < 0.01:
+				t.Errorf("%s (%.1f SE from the treatment alone) ruled out: posterior %.3f at rank %d", want, dist, c.Hypotheses[r].Posterior, r+1)
+			}
+			if r > 0 {
+				t.Logf("%s (%.1f SE) at rank %d, posterior %.3f; top %s %.2f", want, dist, r+1, c.Hypotheses[r].Posterior, top.ID, top.Posterior)
 			}
 			for i := range max(r, 0) {
 				if h := c.Hypotheses[i]; h.Pair && dist >= identifiableSE {
@@ -215,8 +227,11 @@ func TestRecoversTruthNoiseFree(t *testing.T) {
 
 // With sampling noise, on a site drawn away from the nominal one (rates
 // within their spreads, ε within their ranges, treatment sizes within
-// theirs): identifiable truths rank first in at least three of four noise
-// draws, the others in the top two.
+// theirs): truths the perturbed site leaves identifiable rank first in at
+// least three of four noise draws. A truth the perturbed site leaves within
+// identifiableSE of the treatment alone is for the calibration run to judge
+// (its posterior should be modest, not its rank high); here it must only
+// not be answered with a confident wrong hypothesis (top posterior > 0.9).
 func TestRecoversTruthWithNoise(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs many full explanations")
@@ -234,15 +249,22 @@ func TestRecoversTruthWithNoise(t *testing.T) {
 				c := explainSynthetic(t, tr, seed)
 				checkDeclaredAndContext(t, c, tr)
 				r := rankOf(c, want)
+				top := c.Hypotheses[0]
+				if want != "none" && dist < identifiableSE {
+					if r != 0 && top.Posterior > 0.9 {
+						t.Errorf("seed %d: %s is only %.1f SE from the treatment alone, yet %s is given %.2f", seed, want, dist, top.ID, top.Posterior)
+					}
+					continue
+				}
 				tried++
-				if (want == "none" || dist >= identifiableSE) && r == 0 || dist < identifiableSE && want != "none" && r >= 0 && r <= 1 {
+				if r == 0 {
 					hits++
 				} else {
-					t.Logf("seed %d (%.1f SE): top %s %.2f, truth at %d", seed, dist, c.Hypotheses[0].ID, c.Hypotheses[0].Posterior, r+1)
+					t.Logf("seed %d (%.1f SE): top %s %.2f, truth at %d", seed, dist, top.ID, top.Posterior, r+1)
 				}
 			}
-			if hits < 3 {
-				t.Errorf("%s recovered in %d of %d noise draws, want at least 3", want, hits, tried)
+			if tried > 0 && hits < (3*tried+3)/4 {
+				t.Errorf("%s ranked first in %d of %d identifiable noise draws, want at least three in four", want, hits, tried)
 			}
 		})
 	}

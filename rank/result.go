@@ -97,10 +97,12 @@ type ComparisonResult struct {
 	Timeline []Event
 	// ReplicatesAssumed is the replicate count used for measurement noise.
 	ReplicatesAssumed int
-	// Draws is the number of nuisance draws the ranking finally used
-	// (adaptive, DESIGN §5).
-	Draws    int
-	Warnings []string
+	// Draws is the number of nuisance draws the ranking finally used for
+	// the hypotheses with a magnitude (adaptive, DESIGN §5), and
+	// TreatmentAloneDraws those of the treatment alone (up to
+	// treatmentAloneDraws times more: one forward run each).
+	Draws, TreatmentAloneDraws int
+	Warnings                   []string
 	// NoFit is set when the best hypothesis fails its fit check.
 	NoFit bool
 }

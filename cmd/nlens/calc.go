@@ -20,13 +20,13 @@ func newCalcCmd(e *env) *cobra.Command {
 calc evaluates one published formula and prints it with its source, so a
 quick number by hand can be checked. ε is in ‰ and positive when the product
 is depleted (α = 1 + ε/1000). f is the fraction of substrate REMAINING.`),
-		Example: strings.TrimSpace(`
+		Example: strings.Trim(`
   nlens calc rayleigh --d0 5 --epsilon 15 --f 0.2
   nlens calc open --din 0 --epsilon 10 --consumed 0.6
   nlens calc mix --source fertilizer=0:0.5 --source manure=10:0.5 --mixture 4:0.5
   nlens calc gas-loss --soil 5 --inputs 0 --eps-gas 15 --eps-leach 0
   nlens calc convert --d15n 10
-  nlens calc ndfa --reference 6 --legume 1 --b -1`),
+  nlens calc ndfa --reference 6 --legume 1 --b -1`, "\n"),
 		Args: cobra.NoArgs,
 	}
 	var format string

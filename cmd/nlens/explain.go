@@ -52,14 +52,14 @@ figures as SVG and PNG; an existing non-empty DIR needs --force (your other
 files in it are kept). DIR is replaced whole, so it holds the previous
 report or the new one, never a mix, and a second run on the same DIR at the
 same time is refused.`),
-		Example: strings.TrimSpace(`
+		Example: strings.Trim(`
   nlens explain study.yaml
   nlens explain study.yaml --format text
   nlens explain study.yaml --out report/
   nlens explain study.yaml --format json --seed 7
   nlens explain study.yaml --draws 200 --model-error 0.3
   nlens explain study.yaml --no-site-fit
-  nlens explain study.yaml --rules my-rules.yaml`),
+  nlens explain study.yaml --rules my-rules.yaml`, "\n"),
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opt.studyPath = args[0]

@@ -19,10 +19,10 @@ facts prints what nlens assumes, with the sources behind every number:
 isotope effects (ε, range, ecosystem-expressed or intrinsic, δ18O:δ15N
 ratio), source end-members, built-in site templates, the measurement
 catalogue and the references. Without a section it prints all of them.`),
-		Example: strings.TrimSpace(`
+		Example: strings.Trim(`
   nlens facts effects
   nlens facts sources --format json
-  nlens facts references --format bib > nlens.bib`),
+  nlens facts references --format bib > nlens.bib`, "\n"),
 		Args:      cobra.MaximumNArgs(1),
 		ValidArgs: report.FactSections,
 		RunE: func(_ *cobra.Command, args []string) error {

@@ -69,12 +69,12 @@ a fire's. --pulse D makes the --change responses last D years, after which
 the baseline rates return. --remove POOL=SHARE[@EPS] takes that share of a
 pool out of the site at t = 0; with an isotope effect the remaining N
 follows the closed-system Rayleigh law.`),
-		Example: strings.TrimSpace(`
+		Example: strings.Trim(`
   nlens simulate --site temperate-deciduous-forest --change more-nitrification=0.6 --years 5
   nlens simulate --site temperate-deciduous-forest --manage clear-cut --years 2
   nlens simulate --site fertilized-cropland --add urea=80 --format json
   nlens simulate --site boreal-conifer-forest --change less-mycorrhizal-route=0.1 --pulse 3 --years 10
-  nlens simulate --site my-site.yaml --remove foliage=0.6@3 --years 1 --trajectory`),
+  nlens simulate --site my-site.yaml --remove foliage=0.6@3 --years 1 --trajectory`, "\n"),
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, _ []string) error {
 			opt.yearsSet = cmd.Flags().Changed("years")

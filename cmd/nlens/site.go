@@ -32,10 +32,10 @@ format).
   fit     the site of a study fitted to each comparison's control group:
           rates within their spreads and ε within their ranges, with what
           moved and how well the control is reproduced`),
-		Example: strings.TrimSpace(`
+		Example: strings.Trim(`
   nlens site show boreal-conifer-forest
   nlens site export grazed-pasture -o my-pasture.yaml
-  nlens site fit study.yaml -o fitted-site.yaml`),
+  nlens site fit study.yaml -o fitted-site.yaml`, "\n"),
 		Args: cobra.NoArgs,
 	}
 	cmd.AddCommand(newSiteShowCmd(e), newSiteExportCmd(e), newSiteFitCmd(e))
@@ -61,9 +61,9 @@ each process's share of the outflow of the pools it draws from, the
 sources of the isotope effects, the observables at the baseline, the
 site's note and its references. A site whose file pools are off its
 steady state by more than 10 % gets a warning.`),
-		Example: strings.TrimSpace(`
+		Example: strings.Trim(`
   nlens site show temperate-deciduous-forest
-  nlens site show my-site.yaml --format json`),
+  nlens site show my-site.yaml --format json`, "\n"),
 		Args: cobra.ExactArgs(1),
 		RunE: func(_ *cobra.Command, args []string) error {
 			opt.site = args[0]
@@ -108,10 +108,10 @@ and its value noted after the transfer, so uncertainty draws still vary it;
 write an epsilon there to fix it. The file reads back to the same model,
 bit for bit. Without -o it goes to standard output; -o FILE does not
 replace an existing file unless --force is given.`),
-		Example: strings.TrimSpace(`
+		Example: strings.Trim(`
   nlens site export temperate-conifer-forest
   nlens site export riparian-wetland -o my-buffer.yaml
-  nlens site export riparian-wetland -o my-buffer.yaml --force`),
+  nlens site export riparian-wetland -o my-buffer.yaml --force`, "\n"),
 		Args: cobra.ExactArgs(1),
 		RunE: func(_ *cobra.Command, args []string) error {
 			opt.site = args[0]
@@ -201,10 +201,10 @@ and how the control is reproduced; table prints the same as tables; json
 for scripts. A control the site cannot reproduce within two combined
 standard deviations gets a warning naming the observable: the site model
 may lack a process or a source that site has.`),
-		Example: strings.TrimSpace(`
+		Example: strings.Trim(`
   nlens site fit study.yaml
   nlens site fit study.yaml --format table
-  nlens site fit study.yaml --comparison "harvested vs intact" -o fitted-site.yaml`),
+  nlens site fit study.yaml --comparison "harvested vs intact" -o fitted-site.yaml`, "\n"),
 		Args: cobra.ExactArgs(1),
 		RunE: func(_ *cobra.Command, args []string) error {
 			opt.studyPath = args[0]

@@ -40,6 +40,7 @@ type ComparisonJSON struct {
 	Years        *float64             `json:"years"`
 	Series       *string              `json:"series"`
 	Draws        int                  `json:"draws"`
+	DrawsAlone   int                  `json:"treatment_alone_draws"`
 	Observed     map[string]ShiftJSON `json:"observed"`
 	Treatment    TreatmentJSON        `json:"treatment"`
 	Hypotheses   []HypothesisJSON     `json:"hypotheses"`
@@ -182,7 +183,7 @@ func ToJSON(r *rank.Result) ExplainJSON {
 			cj.Observed[o.Observable] = ShiftJSON{round6(o.Shift), round6(o.SE)}
 		}
 		cj.Treatment = treatmentJSON(c.Treatment)
-		cj.Years, cj.Series, cj.Draws = c.Years, nullable(c.Series), c.Draws
+		cj.Years, cj.Series, cj.Draws, cj.DrawsAlone = c.Years, nullable(c.Series), c.Draws, c.TreatmentAloneDraws
 		cj.RuledOut = append([]string{}, c.RuledOut...)
 		for _, h := range c.Hypotheses {
 			cj.Hypotheses = append(cj.Hypotheses, hypothesisJSON(h))
