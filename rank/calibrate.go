@@ -45,6 +45,11 @@ type CalibrationCase struct {
 	Years                  float64
 	// Rank of the truth among the hypotheses (0 first; −1 not listed).
 	Rank int
+	// Rivals counts the other single responses that reproduce a single
+	// truth's noise-free shifts on the truth site within RivalSE somewhere
+	// in their prior range (−1 for none and pairs): a truth with rivals
+	// cannot be told from them by these observables.
+	Rivals int
 	// Top is the leading hypothesis and its posterior; TruthPosterior the
 	// truth's.
 	Top            string
@@ -73,6 +78,15 @@ type Calibration struct {
 	// IdentifiableSE.
 	Top1, Top2, Top1Identifiable float64
 	Identifiable                 int
+	// Top1Unique is the share ranked first of the identifiable single
+	// truths that no other single reproduces (Rivals 0), Top2OneRival the
+	// share in the first two of those that at most one reproduces.
+	Top1Unique, Top2OneRival float64
+	Unique, OneRival         int
+	// NoiseECE is the ECE a perfectly calibrated top posterior would show
+	// on these cases from sampling alone (the mean over outcomes drawn
+	// with the reported confidences).
+	NoiseECE float64
 	// Reliability bins the top posterior: for each bin the count, mean
 	// confidence and share correct; ECE is Σ n_b/N·|acc_b − conf_b|.
 	Reliability []ReliabilityBin
@@ -96,6 +110,10 @@ type ReliabilityBin struct {
 // errors, over the observed quantities) above which a truth counts as
 // identifiable in the calibration summary.
 const IdentifiableSE = 6
+
+// RivalSE is the distance (in observed standard errors) within which
+// another response's predicted shifts count as reproducing a truth's.
+const RivalSE = 2
 
 // calibrationPairShare is the share of non-none truths drawn as pairs (the
 // pairs' share of the prior is of this order: pair_prior 0.15 times the
@@ -320,7 +338,53 @@ func calibrationCase(ctx context.Context, kb *knowledge.Base, set *rules.Set, op
 		}
 	}
 	out := CalibrationCase{Site: siteID, Treatment: treatmentWords(tr), Truth: id, Years: years, Rank: -1, Top: cr.Hypotheses[0].ID,
-		TopPosterior: cr.Hypotheses[0].Posterior, Distance: math.Sqrt(dist), Pair: len(truth) > 1}
+		TopPosterior: cr.Hypotheses[0].Posterior, Distance: math.Sqrt(dist), Pair: len(truth) > 1, Rivals: -1}
+	if len(truth) == 1 {
+		// Rivals: the other singles scanned over their prior range on the
+		// truth site, each share moved by its logit step as explain does.
+		ses := make([]float64, len(obs))
+		for i, name := range obs {
+			ses[i] = math.Sqrt2 * fieldSD(kb, name) / math.Sqrt(n)
+		}
+		out.Rivals = 0
+		for _, op := range opts {
+			if op.c.ID == truth[0].c.ID {
+				continue
+			}
+			best := math.Inf(1)
+			const scan = 25
+			for j := range scan {
+				ax := op.k.ax
+				v := ax.toNatural(ax.ulo + (ax.uhi-ax.ulo)*(float64(j)+0.5)/scan)
+				mod, err := ResponseMod(site, kb, op.c, v)
+				if err != nil {
+					continue
+				}
+				if op.k.baseD != nil {
+					if b := forward.KnobValue(site, &p, *op.k.fk); b > 0 && b < 1 {
+						for q := range mod.Knobs {
+							mod.Knobs[q].Value = logistic(logit(v) - logit(op.k.baseline) + logit(b))
+						}
+					}
+				}
+				ch := forcing
+				ch.Mods = append(slices.Clone(forcing.Mods), mod)
+				other, _, err := simulateShifts(site, &p, &forcing, &ch, years, obs)
+				if err != nil {
+					continue
+				}
+				var d2 float64
+				for i := range obs {
+					d := (other[i] - shifts[i]) / ses[i]
+					d2 += d * d
+				}
+				best = math.Min(best, math.Sqrt(d2))
+			}
+			if best < RivalSE {
+				out.Rivals++
+			}
+		}
+	}
 	for r, h := range cr.Hypotheses {
 		if h.ID != id {
 			continue
@@ -405,8 +469,22 @@ func summarise(cases []CalibrationCase) *Calibration {
 	for b := range bins {
 		bins[b].Low, bins[b].High = float64(b)/10, float64(b+1)/10
 	}
-	var hits1, hits2, idHits, covered int
+	var hits1, hits2, idHits, covered, uniqueHits, rivalHits int
 	for _, k := range cases {
+		if k.Rivals >= 0 && k.Distance >= IdentifiableSE {
+			if k.Rivals == 0 {
+				c.Unique++
+				if k.Rank == 0 {
+					uniqueHits++
+				}
+			}
+			if k.Rivals <= 1 {
+				c.OneRival++
+				if k.Rank == 0 || k.Rank == 1 {
+					rivalHits++
+				}
+			}
+		}
 		if k.Rank == 0 {
 			hits1++
 		}
@@ -445,8 +523,47 @@ func summarise(cases []CalibrationCase) *Calibration {
 		c.ECE += float64(bins[b].N) / n * math.Abs(bins[b].Accuracy-bins[b].Confidence)
 	}
 	c.Reliability = bins
+	c.NoiseECE = noiseECE(cases, bins)
+	if c.Unique > 0 {
+		c.Top1Unique = float64(uniqueHits) / float64(c.Unique)
+	}
+	if c.OneRival > 0 {
+		c.Top2OneRival = float64(rivalHits) / float64(c.OneRival)
+	}
 	if c.Intervals > 0 {
 		c.Coverage = float64(covered) / float64(c.Intervals)
 	}
 	return c
+}
+
+// noiseECE is the mean ECE, over outcomes drawn right with exactly the
+// reported top posteriors, of a perfectly calibrated forecaster on these
+// cases and bins: the ECE that sampling alone gives (it is not zero for a
+// finite set; from memory: Bröcker 2012, "Estimating reliability and resolution of
+// probability forecasts through decomposition of the empirical score",
+// Clim. Dyn. 39:655–667, on the bias of binned reliability).
+func noiseECE(cases []CalibrationCase, bins []ReliabilityBin) float64 {
+	if len(cases) == 0 {
+		return 0
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	const reps = 2000
+	var total float64
+	right := make([]float64, len(bins))
+	for range reps {
+		clear(right)
+		for _, k := range cases {
+			if rng.Float64() < k.TopPosterior {
+				right[min(int(k.TopPosterior*10), 9)]++
+			}
+		}
+		var ece float64
+		for b := range bins {
+			if bins[b].N > 0 {
+				ece += math.Abs(right[b]-bins[b].Confidence*float64(bins[b].N)) / float64(len(cases))
+			}
+		}
+		total += ece
+	}
+	return total / reps
 }

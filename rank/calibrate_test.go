@@ -3,6 +3,7 @@ package rank
 import (
 	"context"
 	"fmt"
+	"math"
 	"os"
 	"strconv"
 	"testing"
@@ -18,9 +19,11 @@ func logCalibration(t *testing.T, c *Calibration) {
 		if k.CountedWithNone {
 			with = " (counted with none)"
 		}
-		t.Logf("%-27s %-42s %4.0f y  truth %-45s rank %2d%s  top %-40s %.2f  dist %5.1f  cov %d/%d", k.Site, k.Treatment, k.Years, k.Truth, k.Rank+1, with, k.Top, k.TopPosterior, k.Distance, k.Covered, k.Intervals)
+		t.Logf("%-27s %-42s %4.0f y  truth %-45s rank %2d%s  top %-40s %.2f  dist %5.1f  rivals %2d  cov %d/%d", k.Site, k.Treatment, k.Years, k.Truth, k.Rank+1, with, k.Top, k.TopPosterior, k.Distance, k.Rivals, k.Covered, k.Intervals)
 	}
-	t.Logf("top-1 %.2f, top-2 %.2f, top-1 of the %d identifiable %.2f; ECE %.3f; 90 %% interval coverage %.2f (%d intervals)", c.Top1, c.Top2, c.Identifiable, c.Top1Identifiable, c.ECE, c.Coverage, c.Intervals)
+	t.Logf("top-1 %.2f, top-2 %.2f, top-1 of the %d identifiable %.2f", c.Top1, c.Top2, c.Identifiable, c.Top1Identifiable)
+	t.Logf("identifiable single truths no other single reproduces: %d, ranked first %.2f; with at most one rival: %d, in the top two %.2f", c.Unique, c.Top1Unique, c.OneRival, c.Top2OneRival)
+	t.Logf("ECE %.3f (sampling alone gives %.3f); 90 %% interval coverage %.2f (%d intervals)", c.ECE, c.NoiseECE, c.Coverage, c.Intervals)
 	for _, b := range c.Reliability {
 		if b.N > 0 {
 			t.Logf("top posterior %.1f–%.1f: %3d cases, mean %.2f, right %.2f", b.Low, b.High, b.N, b.Confidence, b.Accuracy)
@@ -52,11 +55,10 @@ func TestCalibrationFull(t *testing.T) {
 }
 
 // A small fixed calibration set (seeded, deterministic): the 90 % intervals
-// hold the truth about 90 % of the time and the top posterior is about as
-// often right as it claims. The bounds allow for the sampling noise of so
-// few cases: with 24 cases a binomial share of 0.9 has a standard error of
-// 0.06, and an ECE over a few occupied bins of about 0.1 arises from noise
-// alone (binomial standard errors of the bins, hand computation).
+// hold the truth between 85 and 95 % of the time, and the top posterior is
+// as often right as it claims within 0.05 beyond what sampling alone gives
+// on so few cases (NoiseECE: with 24 cases it is about 0.1, so an ECE bound
+// without it would test the sample size, not the posteriors).
 func TestCalibrationSmall(t *testing.T) {
 	if testing.Short() {
 		t.Skip("explains 24 synthetic studies")
@@ -68,13 +70,30 @@ func TestCalibrationSmall(t *testing.T) {
 		t.Fatal(err)
 	}
 	logCalibration(t, c)
-	if c.Coverage < 0.75 {
-		t.Errorf("90 %% interval coverage %.2f, want at least 0.75 for 24 cases", c.Coverage)
+	if c.Coverage < 0.85 || c.Coverage > 0.95 {
+		t.Errorf("90 %% interval coverage %.2f, want 0.85–0.95", c.Coverage)
 	}
-	if c.ECE > 0.2 {
-		t.Errorf("ECE %.3f, want at most 0.2 for 24 cases", c.ECE)
+	if c.ECE > c.NoiseECE+0.05 {
+		t.Errorf("ECE %.3f, want at most 0.05 beyond the %.3f sampling alone gives", c.ECE, c.NoiseECE)
 	}
 	if c.Top1Identifiable < 0.75 {
 		t.Errorf("identifiable truths ranked first %.2f, want at least 0.75", c.Top1Identifiable)
+	}
+}
+
+// The ECE that sampling alone gives: a forecaster whose confidences are
+// all 0.5 is right about half the time; on 100 such cases the mean
+// |right − 50|/100 of a binomial(100, 0.5) is about 0.04 (E|X − np| ≈
+// √(2np(1−p)/π) = 3.99 for n = 100, the normal approximation; hand
+// computation).
+func TestNoiseECE(t *testing.T) {
+	t.Parallel()
+	cases := make([]CalibrationCase, 100)
+	for i := range cases {
+		cases[i].TopPosterior = 0.5
+	}
+	c := summarise(cases)
+	if want := math.Sqrt(2*100*0.25/math.Pi) / 100; math.Abs(c.NoiseECE-want) > 0.004 {
+		t.Errorf("NoiseECE %.4f, want about %.4f", c.NoiseECE, want)
 	}
 }

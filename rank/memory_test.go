@@ -8,12 +8,13 @@ import (
 	"nlens/rules"
 )
 
-// DrawBytes for the demo study, by hand: 14 single candidates with a knob
-// (15 in rules/candidates.yaml, less none), 3 observables, 121 fine
-// points; 13 log-uniform candidates with 11 coarse nodes and the uniform
-// uptake-form with 21: 13·(121·4 + 11·3) + (121·4 + 21·3) = 7268 floats,
-// × 8 bytes × 3 (drawMemoryFactor) = 174 432 bytes; 2 GiB / 174 432 bytes
-// = 12 311 draws.
+// DrawBytes for the demo study, by hand: 30 candidates with a magnitude
+// in rules/candidates.yaml (31 less none): 20 responses sized as shares
+// (logit-uniform, 15 coarse nodes) and 10 rates (log-uniform, 11 nodes);
+// 4 observables, 121 fine points, so 121·(4+1) = 605 fine floats each:
+// 20·(605 + 15·4) + 10·(605 + 11·4) = 13 300 + 6 490 = 19 790 floats,
+// × 8 bytes × 3 (drawMemoryFactor) = 474 960 bytes; 2 GiB / 474 960 bytes
+// = 4 521 draws.
 func TestDrawBytesDemo(t *testing.T) {
 	t.Parallel()
 	kb := knowledge.MustDefault()
@@ -25,10 +26,10 @@ func TestDrawBytesDemo(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got, want := DrawBytes(st, set), int64(174432); got != want {
+	if got, want := DrawBytes(st, set), int64(474960); got != want {
 		t.Errorf("DrawBytes = %d, want %d (hand computation)", got, want)
 	}
-	if got, want := MaxDraws(st, set), 12311; got != want {
+	if got, want := MaxDraws(st, set), 4521; got != want {
 		t.Errorf("MaxDraws = %d, want %d (hand computation)", got, want)
 	}
 }
