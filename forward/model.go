@@ -3,6 +3,7 @@ package forward
 import (
 	"fmt"
 	"math"
+	"slices"
 
 	"gonum.org/v1/gonum/blas/blas64"
 )
@@ -59,8 +60,12 @@ type Model struct {
 	expN, expO   *expWork
 	augN, augO   blas64.General
 	e14, e15, eO blas64.General
-	z            []float64
-	oRows        [2][]float64 // nitrate-oxygen rows (see fillOxygen)
+	// last14, last15, lastO are the matrices whose exponentials e14, e15
+	// and eO hold (nil before the first): a trajectory's equal steps under
+	// constant rates reuse them instead of recomputing.
+	last14, last15, lastO []float64
+	z                     []float64
+	oRows                 [2][]float64 // nitrate-oxygen rows (see fillOxygen)
 }
 
 // NewModel prepares a model of the site.
@@ -244,7 +249,15 @@ func (m *Model) expAugmented(p *Params, t float64, withO bool) {
 			}
 			clear(m.augN.Data)
 			m.fillN(p, iso, m.augN.Data, n+1, t, n, nil)
+			last := &m.last14
+			if iso == 1 {
+				last = &m.last15
+			}
+			if *last != nil && slices.Equal(*last, m.augN.Data) {
+				continue
+			}
 			m.expN.exp(e, m.augN)
+			*last = append((*last)[:0], m.augN.Data...)
 		}
 		return
 	}
@@ -267,7 +280,11 @@ func (m *Model) expAugmented(p *Params, t float64, withO bool) {
 			dst[c] += v * t
 		}
 	}
+	if m.lastO != nil && slices.Equal(m.lastO, a) {
+		return
+	}
 	m.expO.exp(m.eO, m.augO)
+	m.lastO = append(m.lastO[:0], a...)
 }
 
 // applyExp computes dst from x0 with the exponentials of expAugmented.

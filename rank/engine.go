@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"sync"
 
 	"nlens/forward"
 	"nlens/knowledge"
@@ -105,10 +104,10 @@ type engine struct {
 	rawLogW                 []float64
 	bestMismatch, worstDiff float64
 	worstName               string
-	// cache holds coarse predictions by hypothesis id across rounds of
-	// draws (guarded by cacheMu: hypotheses are scored in parallel).
-	cacheMu sync.Mutex
-	cache   map[string]*coarseCache
+	// pc holds coarse predictions by hypothesis id across rounds of draws,
+	// shared by the units of one design (key).
+	pc  *predCache
+	key string
 	// settled holds, from the previous round of draws, the hypotheses
 	// whose posterior was too small to matter to the Monte Carlo error of
 	// the leading ones; later rounds reuse them instead of adding draws.
@@ -241,10 +240,9 @@ func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 		k.fluxJ = forward.KnobTransfers(s, fk)
 		k.baseline = forward.KnobValue(s, &e.draws[0].params, fk)
 		if rules.IsShare(k.kind) {
-			k.baseD = make([]float64, len(e.draws))
-			for d := range e.draws {
-				k.baseD[d] = forward.KnobValue(s, &e.draws[d].params, fk)
-			}
+			k.baseD = e.pc.baselines(c.ID, len(e.draws), func(d int) float64 {
+				return forward.KnobValue(s, &e.draws[d].params, fk)
+			})
 		}
 		switch c.Direction {
 		case rules.More:
@@ -414,7 +412,9 @@ func (e *engine) grow(w *worker, n int) error {
 	if n <= from {
 		return nil
 	}
-	ds, err := makeDraws(e.site, e.kb, e.trs, from, n, e.lhs)
+	ds, err := e.pc.drawsFor(from, n, func(from, to int) ([]draw, error) {
+		return makeDraws(e.site, e.kb, e.trs, from, to, e.lhs)
+	})
 	if err != nil {
 		return err
 	}

@@ -1,10 +1,12 @@
 package rank
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"slices"
 	"sort"
+	"sync"
 
 	"gonum.org/v1/gonum/stat/distuv"
 
@@ -20,8 +22,9 @@ type scored struct {
 	nd, no int   // draws, observables
 	// pred[(f·nd + d)·no + o]: predicted shift at fine point f, draw d.
 	pred []float64
-	// logq[f·nd + d]: log posterior weight within the hypothesis.
-	logq []float64
+	// q[f·nd + d]: posterior weight within the hypothesis (summing to 1;
+	// exponentiated once, as every summary uses it).
+	q []float64
 	// logw are the log weights of the draws used (all draws, or only draw 0
 	// with weight 1 when the site is certain).
 	logw []float64
@@ -80,16 +83,9 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 		nCoarse *= v
 	}
 	coarse := make([]float64, nCoarse*nd*no)
-	// Draws scored in an earlier round keep their predictions.
-	done := 0
-	e.cacheMu.Lock()
-	if cc, ok := e.cache[id]; ok && cc.nCoarse == nCoarse && cc.nd <= nd {
-		done = cc.nd
-		for c := range nCoarse {
-			copy(coarse[c*nd*no:(c*nd+done)*no], cc.data[c*done*no:(c+1)*done*no])
-		}
-	}
-	e.cacheMu.Unlock()
+	// Draws scored in an earlier round, or by an earlier unit of the same
+	// design, keep their predictions.
+	done := e.pc.load(id, nCoarse, nd, no, coarse)
 	theta := make([]float64, len(knobs))
 	for c := range nCoarse {
 		rem := c
@@ -101,13 +97,8 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 			e.predict(w, d, knobs, theta, coarse[(c*nd+d)*no:(c*nd+d+1)*no])
 		}
 	}
-	e.cacheMu.Lock()
-	if e.cache == nil {
-		e.cache = map[string]*coarseCache{}
-	}
-	e.cache[id] = &coarseCache{nCoarse: nCoarse, nd: nd, data: slices.Clone(coarse)}
-	e.cacheMu.Unlock()
-	s.pred = interpolate(coarse, knobs, s.nc, s.nf, nd*no)
+	e.pc.store(id, nCoarse, nd, no, coarse)
+	s.pred = e.pc.finePred(id, nCoarse, nd, func() []float64 { return interpolate(coarse, knobs, s.nc, s.nf, nd*no) })
 	s.likelihood(e, none)
 	return s
 }
@@ -117,6 +108,124 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 type coarseCache struct {
 	nCoarse, nd int
 	data        []float64
+}
+
+// predCache holds coarse predictions by hypothesis id. Hypotheses are
+// scored in parallel, and units of one design share a cache.
+type predCache struct {
+	mu sync.Mutex
+	m  map[string]*coarseCache
+	// fine are the predictions carried to the fine grid, by id and number
+	// of draws; bases the baseline share of each draw, by
+	// candidate id.
+	fine  map[string]fineCache
+	bases map[string][]float64
+	// draws are the design's nuisance draws made so far (read only).
+	draws []draw
+}
+
+// drawsFor returns draws from to to (exclusive), making with mk only those
+// not made yet by a unit of the same design.
+func (pc *predCache) drawsFor(from, to int, mk func(from, to int) ([]draw, error)) ([]draw, error) {
+	pc.mu.Lock()
+	have := pc.draws
+	pc.mu.Unlock()
+	if len(have) >= to {
+		return have[from:to:to], nil
+	}
+	more, err := mk(len(have), to)
+	if err != nil {
+		return nil, err
+	}
+	all := append(have[:len(have):len(have)], more...)
+	pc.mu.Lock()
+	if len(pc.draws) < len(all) {
+		pc.draws = all
+	}
+	pc.mu.Unlock()
+	return all[from:to:to], nil
+}
+
+type fineCache struct {
+	nCoarse, nd int
+	pred        []float64
+}
+
+// finePred returns the fine-grid predictions of the hypothesis for nd
+// draws, interpolating (and keeping) them if they are not kept yet. The
+// returned slice is shared: callers must not change it.
+func (pc *predCache) finePred(id string, nCoarse, nd int, make func() []float64) []float64 {
+	pc.mu.Lock()
+	key := fmt.Sprintf("%s@%d", id, nd)
+	if f, ok := pc.fine[key]; ok && f.nCoarse == nCoarse {
+		pc.mu.Unlock()
+		return f.pred
+	}
+	pc.mu.Unlock()
+	pred := make()
+	pc.mu.Lock()
+	if pc.fine == nil {
+		pc.fine = map[string]fineCache{}
+	}
+	pc.fine[key] = fineCache{nCoarse: nCoarse, nd: nd, pred: pred}
+	pc.mu.Unlock()
+	return pred
+}
+
+// baselines returns the baseline share of a candidate's knob in each of n
+// draws, computing with value only the draws not kept yet. The returned
+// slice is shared: callers must not change it.
+func (pc *predCache) baselines(id string, n int, value func(d int) float64) []float64 {
+	pc.mu.Lock()
+	have := pc.bases[id]
+	pc.mu.Unlock()
+	if len(have) >= n {
+		return have[:n:n]
+	}
+	out := make([]float64, n)
+	copy(out, have)
+	for d := len(have); d < n; d++ {
+		out[d] = value(d)
+	}
+	pc.mu.Lock()
+	if pc.bases == nil {
+		pc.bases = map[string][]float64{}
+	}
+	if len(pc.bases[id]) < n {
+		pc.bases[id] = out
+	}
+	pc.mu.Unlock()
+	return out[:n:n]
+}
+
+// load copies into coarse (laid out for nd draws of no observables) the
+// cached predictions of the hypothesis, for at most nd draws, and returns
+// how many draws it copied.
+func (pc *predCache) load(id string, nCoarse, nd, no int, coarse []float64) int {
+	pc.mu.Lock()
+	defer pc.mu.Unlock()
+	cc, ok := pc.m[id]
+	if !ok || cc.nCoarse != nCoarse {
+		return 0
+	}
+	done := min(cc.nd, nd)
+	for c := range nCoarse {
+		copy(coarse[c*nd*no:(c*nd+done)*no], cc.data[c*cc.nd*no:(c*cc.nd+done)*no])
+	}
+	return done
+}
+
+// store keeps the predictions of nd draws unless more are kept already.
+func (pc *predCache) store(id string, nCoarse, nd, no int, coarse []float64) {
+	pc.mu.Lock()
+	defer pc.mu.Unlock()
+	if cc, ok := pc.m[id]; ok && cc.nCoarse == nCoarse && cc.nd >= nd {
+		return
+	}
+	if pc.m == nil {
+		pc.m = map[string]*coarseCache{}
+	}
+	pc.m[id] = &coarseCache{nCoarse: nCoarse, nd: nd, data: slices.Clone(coarse)}
 }
 
 // interpolate carries coarse predictions (blocks of size blk per node) to
@@ -155,12 +264,12 @@ func interpolate(coarse []float64, knobs []*knob, nc, nf []int, blk int) []float
 	return cur
 }
 
-// likelihood fills logq and logZ from the predictions, and the departure
+// likelihood fills q and logZ from the predictions, and the departure
 // from none's predictions (draw by draw, then averaged with the draw
 // weights) in observed standard errors.
 func (s *scored) likelihood(e *engine, none *scored) {
 	nF, nd, no := s.fineCount(), s.nd, s.no
-	s.logq = make([]float64, nF*nd)
+	logq := make([]float64, nF*nd)
 	logPrior := -math.Log(float64(nF))
 	var norm float64
 	for o := range no {
@@ -190,7 +299,7 @@ func (s *scored) likelihood(e *engine, none *scored) {
 			if math.IsNaN(ll) {
 				ll = math.Inf(-1)
 			}
-			s.logq[f*nd+d] = s.logw[d] + logPrior + ll + norm
+			logq[f*nd+d] = s.logw[d] + logPrior + ll + norm
 		}
 		for o := range no {
 			if v := math.Abs(mean[o]) / e.observed[o].SE; !math.IsNaN(v) {
@@ -198,14 +307,31 @@ func (s *scored) likelihood(e *engine, none *scored) {
 			}
 		}
 	}
-	s.logZ = logSumExp(s.logq)
-	for i := range s.logq {
-		s.logq[i] -= s.logZ
+	// Normalise: q = exp(logq − max)/Σ, ln Z = max + ln Σ (one exp each).
+	mx := math.Inf(-1)
+	for _, x := range logq {
+		mx = math.Max(mx, x)
+	}
+	s.q = logq // reused in place
+	if math.IsInf(mx, -1) {
+		s.logZ = mx
+		clear(s.q)
+	} else {
+		var sum float64
+		for i, x := range logq {
+			v := math.Exp(x - mx)
+			s.q[i] = v
+			sum += v
+		}
+		s.logZ = mx + math.Log(sum)
+		for i := range s.q {
+			s.q[i] /= sum
+		}
 	}
 	if nd > 1 {
 		q := make([]float64, nd)
-		for i, lq := range s.logq {
-			q[i%nd] += math.Exp(lq)
+		for i, v := range s.q {
+			q[i%nd] += v
 		}
 		for d := range nd {
 			s.relVar += (q[d] - w[d]) * (q[d] - w[d])
@@ -217,8 +343,7 @@ func (s *scored) likelihood(e *engine, none *scored) {
 // predicted shift.
 func (s *scored) moments() []Moments {
 	out := make([]Moments, s.no)
-	for i, lq := range s.logq {
-		q := math.Exp(lq)
+	for i, q := range s.q {
 		if q == 0 {
 			continue
 		}
@@ -257,8 +382,8 @@ func (s *scored) marginal(a int) []float64 {
 	for _, v := range s.nf[a+1:] {
 		inner *= v
 	}
-	for i, lq := range s.logq {
-		marg[(i/inner)%s.nf[a]] += math.Exp(lq)
+	for i, q := range s.q {
+		marg[(i/inner)%s.nf[a]] += q
 	}
 	return marg
 }
@@ -429,10 +554,10 @@ func quantileU(marg []float64, ulo, uhi, q float64) float64 {
 
 // sample draws n (fine point, draw) pairs from the hypothesis's posterior.
 func (s *scored) sample(n int, rng *rand.Rand) [][2]int {
-	cum := make([]float64, len(s.logq))
+	cum := make([]float64, len(s.q))
 	var c float64
-	for i, lq := range s.logq {
-		c += math.Exp(lq)
+	for i, q := range s.q {
+		c += q
 		cum[i] = c
 	}
 	out := make([][2]int, n)

@@ -2,12 +2,14 @@ package rank
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
 	"runtime"
 	"slices"
 	"sort"
+	"strconv"
 	"strings"
 	"sync"
 
@@ -97,37 +99,70 @@ func Explain(ctx context.Context, st *study.Study, kb *knowledge.Base, set *rule
 			LevelSDPermil: levelSDPermil, LevelSDLog: levelSDLog,
 			CoarseNodes: coarse1, FinePoints: fine1, PairCoarseNodes: coarse2, PairFinePoints: fine2,
 			PairsFrom: pairsFrom, NoneShare: set.NoneShare, PairPrior: set.PairPrior,
-			SamplesPerLeading: samplesPerHypothesis, HermiteNodes: hermiteNodes,
+			SamplesPerLeading: samplesPerHypothesis, OutcomeGridStep: outcomeStep,
 		}}
 	us := units(st)
 	prog := &progress{f: opt.Progress, total: len(us) * (2*len(set.Candidates) + maxPairs + 4)}
-	// Several units run side by side, each on one goroutine; a single unit
-	// spreads its candidates over the workers instead. Either way every
-	// result depends only on (seed, unit, candidate).
-	inner, outer := opt.Workers, 1
-	if len(us) > 1 {
-		inner, outer = 1, opt.Workers
+	// Every unit's engine is prepared first (its site fitted to its
+	// controls), so that units of one design (the same fitted site,
+	// treatments, years and observables) can share their nuisance draws
+	// and forward predictions: such a unit takes the draws of the first
+	// unit of its design (its stream), which runs first and fills the
+	// shared cache. Results still depend only on (seed, unit, candidate).
+	sh := newShared()
+	engines := make([]*engine, len(us))
+	errs := make([]error, len(us))
+	forEach(len(us), opt.Workers, func(i int) {
+		engines[i], errs[i] = prepareEngine(st, us[i], kb, set, opt, sh)
+		if errs[i] != nil {
+			errs[i] = fmt.Errorf("%s: %w", us[i].what(st), errs[i])
+		}
+	})
+	if err := errors.Join(errs...); err != nil {
+		return nil, err
+	}
+	streams := make([]int, len(us))
+	var leaders, followers []int
+	for i, e := range engines {
+		streams[i] = slices.IndexFunc(engines[:i+1], func(o *engine) bool { return o.key == e.key })
+		if streams[i] == i {
+			leaders = append(leaders, i)
+		} else {
+			followers = append(followers, i)
+		}
+		e.pc = sh.predictions(e.key)
 	}
 	members := make([][]ComparisonResult, len(us))
 	series := make([]*SeriesResult, len(us))
-	errs := make([]error, len(us))
-	forEach(len(us), outer, func(i int) {
-		if ctx.Err() != nil {
-			errs[i] = ctx.Err()
-			return
+	run := func(idx []int) {
+		// Several units run side by side, each on one goroutine; a single
+		// unit spreads its candidates over the workers instead.
+		inner, outer := opt.Workers, 1
+		if len(idx) > 1 {
+			inner, outer = 1, opt.Workers
 		}
-		o := opt
-		o.Workers = inner
-		crs, sr, err := explainUnit(ctx, st, us[i], kb, set, o, prog)
-		if err != nil {
-			errs[i] = fmt.Errorf("%s: %w", us[i].what(st), err)
-			return
-		}
-		for k := range crs {
-			crs[k].Warnings = append(slices.Clone(st.Warnings), crs[k].Warnings...)
-		}
-		members[i], series[i] = crs, sr
-	})
+		forEach(len(idx), outer, func(k int) {
+			i := idx[k]
+			if ctx.Err() != nil {
+				errs[i] = ctx.Err()
+				return
+			}
+			e := engines[i]
+			e.opt.Workers = inner
+			crs, sr, err := explainUnit(ctx, e, uint64(us[streams[i]].idx[0]), us[i], prog)
+			if err != nil {
+				errs[i] = fmt.Errorf("%s: %w", us[i].what(st), err)
+				return
+			}
+			for k := range crs {
+				crs[k].Warnings = append(slices.Clone(st.Warnings), crs[k].Warnings...)
+			}
+			members[i], series[i] = crs, sr
+			engines[i] = nil // its memory can go
+		})
+	}
+	run(leaders)
+	run(followers)
 	byIndex := make([]*ComparisonResult, len(st.Comparisons))
 	for i, err := range errs {
 		if err != nil {
@@ -263,10 +298,25 @@ type entry struct {
 // factor is never counted with none (DESIGN §5).
 const mergeEvidenceFactor = 3
 
-// newEngine prepares the engine of one unit: the site with every transfer
-// the candidates and the treatments may turn on, the draws, their baselines
-// and weights.
+// newEngine prepares the engine of one unit and makes its draws (with the
+// unit's own stream and cache).
 func newEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt Options) (*engine, error) {
+	e, err := prepareEngine(st, u, kb, set, opt, nil)
+	if err != nil {
+		return nil, err
+	}
+	e.pc = &predCache{}
+	if err := e.setup(newWorker(e.site), uint64(u.idx[0])); err != nil {
+		return nil, err
+	}
+	return e, nil
+}
+
+// prepareEngine prepares the engine of one unit: the site fitted to the
+// controls with every transfer the candidates and the treatments may turn
+// on, its parts and its design key; the draws are made by setup. sh, if
+// not nil, shares site fits between units with the same control targets.
+func prepareEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt Options, sh *shared) (*engine, error) {
 	var trs []forward.Treatment
 	var cmps []study.Comparison
 	for _, i := range u.idx {
@@ -275,8 +325,8 @@ func newEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt 
 	}
 	nominal, fit := st.Site, (*SiteFit)(nil)
 	var fitWarn []string
+	var targets []FitTarget
 	if !opt.NoSiteFit {
-		var targets []FitTarget
 		for _, c := range cmps {
 			for _, o := range c.Observed {
 				if !o.NoLevels() {
@@ -285,7 +335,7 @@ func newEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt 
 			}
 		}
 		if len(targets) > 0 {
-			f, err := FitSite(st.Site, targets, FitOptions{})
+			f, err := sh.fit(st.Site, targets)
 			switch {
 			case err == nil:
 				nominal, fit = f.Site, f
@@ -316,10 +366,87 @@ func newEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt 
 		e.parts = append(e.parts, part{cmp: &st.Comparisons[i], tr: trs[k], scale: scale[min(k, len(scale)-1)]})
 		e.treated = e.treated || !trs[k].Empty(kb)
 	}
-	if err := e.setup(newWorker(site), uint64(u.idx[0])); err != nil {
-		return nil, err
-	}
+	e.key = designKey(targets, e.parts)
 	return e, nil
+}
+
+// designKey identifies what a unit's draws and forward predictions depend
+// on besides the study's site: the control targets its site was fitted to,
+// and each part's treatment, time, dose scale, response and observables.
+func designKey(targets []FitTarget, parts []part) string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "fit %s\n", targetsKey(targets))
+	for _, p := range parts {
+		c := p.cmp
+		years := "steady"
+		if c.Years != nil {
+			years = strconv.FormatFloat(*c.Years, 'x', -1, 64)
+		}
+		tr, _ := json.Marshal(p.tr)
+		fmt.Fprintf(&b, "part %s %s %x %q", tr, years, p.scale, c.Response)
+		for _, o := range c.Observed {
+			fmt.Fprintf(&b, " %q", o.Observable)
+		}
+		b.WriteByte('\n')
+	}
+	return b.String()
+}
+
+// targetsKey writes fit targets exactly.
+func targetsKey(targets []FitTarget) string {
+	var b strings.Builder
+	for _, t := range targets {
+		fmt.Fprintf(&b, "%q %x %x;", t.Observable, t.Mean, t.SE)
+	}
+	return b.String()
+}
+
+// shared holds what the units of one explanation share: site fits by
+// control targets, and forward predictions by design.
+type shared struct {
+	mu    sync.Mutex
+	fits  map[string]*fitOnce
+	preds map[string]*predCache
+}
+
+type fitOnce struct {
+	once sync.Once
+	fit  *SiteFit
+	err  error
+}
+
+func newShared() *shared {
+	return &shared{fits: map[string]*fitOnce{}, preds: map[string]*predCache{}}
+}
+
+// fit fits the site to the targets once per distinct set of targets (a
+// nil shared fits every time).
+func (sh *shared) fit(site *forward.Site, targets []FitTarget) (*SiteFit, error) {
+	if sh == nil {
+		return FitSite(site, targets, FitOptions{})
+	}
+	k := targetsKey(targets)
+	sh.mu.Lock()
+	f, ok := sh.fits[k]
+	if !ok {
+		f = &fitOnce{}
+		sh.fits[k] = f
+	}
+	sh.mu.Unlock()
+	f.once.Do(func() { f.fit, f.err = FitSite(site, targets, FitOptions{}) })
+	return f.fit, f.err
+}
+
+// predictions returns the prediction cache of a design.
+func (sh *shared) predictions(key string) *predCache {
+	sh.mu.Lock()
+	defer sh.mu.Unlock()
+	pc, ok := sh.preds[key]
+	if !ok {
+		pc = &predCache{}
+		sh.preds[key] = pc
+	}
+	return pc
 }
 
 // variant is one single hypothesis to score: a candidate, sustained or as
@@ -374,11 +501,11 @@ func (e *engine) evaluateOrReuse(w *worker, id string, knobs []*knob, none *scor
 // posteriors is below mcseTarget or Options.MaxDraws is reached. The first
 // draws of a larger design are those of the smaller one, so each doubling
 // only adds draws, and what was computed for the earlier draws is kept.
-func explainUnit(ctx context.Context, st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, opt Options, prog *progress) ([]ComparisonResult, *SeriesResult, error) {
-	e, err := newEngine(st, u, kb, set, opt)
-	if err != nil {
+func explainUnit(ctx context.Context, e *engine, stream uint64, u unit, prog *progress) ([]ComparisonResult, *SeriesResult, error) {
+	if err := e.setup(newWorker(e.site), stream); err != nil {
 		return nil, nil, err
 	}
+	opt := e.opt
 	maxDraws := max(opt.MaxDraws, opt.Draws)
 	for {
 		sc, err := e.score(ctx, prog)

@@ -267,7 +267,14 @@ func (e *engine) timeline(pi int) []Event {
 }
 
 // fluxSamples is the number of posterior samples behind a flux summary.
-const fluxSamples = 32
+// The flux is worked out for the first fluxAlways hypotheses and any other
+// above fluxMinPosterior (those a reader may look at; the rest of a long
+// JSON list goes without).
+const (
+	fluxSamples      = 32
+	fluxAlways       = 10
+	fluxMinPosterior = 0.001
+)
 
 // fluxes fills each hypothesis's magnitudes with the flux they imply at
 // part pi's observation time: over posterior samples, the flux of each
@@ -277,7 +284,7 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, pi int) {
 	w := newWorker(e.site)
 	for i := range cr.Hypotheses {
 		h := &cr.Hypotheses[i]
-		if len(h.Magnitudes) == 0 {
+		if len(h.Magnitudes) == 0 || (i >= fluxAlways && h.Posterior < fluxMinPosterior) {
 			continue
 		}
 		s := entries[i].s

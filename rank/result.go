@@ -61,7 +61,9 @@ type Method struct {
 	NoneShare         float64
 	PairPrior         float64
 	SamplesPerLeading int
-	HermiteNodes      int
+	// OutcomeGridStep is the step of the information integral's outcome
+	// grid, in measurement-noise sds.
+	OutcomeGridStep float64
 }
 
 // ComparisonResult ranks the explanations of one comparison.

@@ -89,7 +89,7 @@ func share(cand, dir, process, of string, best, lo, hi, base, flux float64) rank
 func method(draws int) rank.Method {
 	return rank.Method{Draws: draws, ModelErrorPermil: 0.5, ModelErrorLog: 0.25, LevelSDPermil: 2, LevelSDLog: 0.5,
 		CoarseNodes: 13, FinePoints: 121, PairCoarseNodes: 9, PairFinePoints: 41, PairsFrom: 4, NoneShare: 0.3, PairPrior: 0.15,
-		SamplesPerLeading: 32, HermiteNodes: 10}
+		SamplesPerLeading: 32, OutcomeGridStep: 0.25}
 }
 
 // evenYears is 0, step, …, (n−1)·step.

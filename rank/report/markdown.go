@@ -264,7 +264,7 @@ func methods(r *rank.Result, kb *knowledge.Base, ci citer) string {
 		trimFloat(m.LevelSDPermil), trimFloat(m.LevelSDLog), trimFloat(m.ModelErrorPermil), trimFloat(m.ModelErrorLog))
 	fmt.Fprintf(&b, "Priors: no change in N cycling held %s of the prior probability and the candidates shared the rest by their context-adjusted weights; pairs were formed from the %d best single candidates with a prior of %s × the product of their priors. ",
 		trimFloat(m.NoneShare), m.PairsFrom, trimFloat(m.PairPrior))
-	fmt.Fprintf(&b, "Next measurements were predicted from %d posterior samples of each leading explanation with catalogue measurement noise added, and ranked by the mutual information between the outcome and the explanation, in bits, by Gauss–Hermite quadrature with %d nodes.\n\n", m.SamplesPerLeading, m.HermiteNodes)
+	fmt.Fprintf(&b, "Next measurements were predicted from %d posterior samples of each leading explanation with catalogue measurement noise added, and ranked by the mutual information between the outcome and the explanation, in bits, integrated by the trapezoid rule on an outcome grid of step %s noise sd.\n\n", m.SamplesPerLeading, trimFloat(m.OutcomeGridStep))
 
 	rows := [][]string{
 		{"nlens version", r.Version},
@@ -280,7 +280,7 @@ func methods(r *rank.Result, kb *knowledge.Base, ci citer) string {
 		{"quadrature nodes / points (single)", fmt.Sprintf("%d / %d", m.CoarseNodes, m.FinePoints)},
 		{"quadrature nodes / points per axis (pair)", fmt.Sprintf("%d / %d", m.PairCoarseNodes, m.PairFinePoints)},
 		{"posterior samples per leading explanation", strconv.Itoa(m.SamplesPerLeading)},
-		{"Gauss–Hermite nodes", strconv.Itoa(m.HermiteNodes)},
+		{"outcome grid step (noise sd)", trimFloat(m.OutcomeGridStep)},
 	}
 	if ctx := r.Context; ctx.SoilPH != nil || ctx.Drainage != "" || ctx.PrecipMM != nil || ctx.Mycorrhizal != "" {
 		var parts []string
