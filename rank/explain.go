@@ -54,7 +54,7 @@ const (
 	// leadingMass: leading hypotheses cover this much posterior.
 	leadingMass = 0.95
 	// samplesPerHypothesis for measurement predictions.
-	samplesPerHypothesis = 24
+	samplesPerHypothesis = 128
 	// pairDraws caps the nuisance draws used for a pair (the first draws,
 	// nominal included, reweighted among themselves): a pair's 2-D grid
 	// costs 49 nodes against 11 for a single, and its evidence needs the
