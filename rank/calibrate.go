@@ -37,6 +37,8 @@ type CalibrationOptions struct {
 	Templates []string
 	// Progress, if set, is called after each case.
 	Progress func(done, total int)
+	// Inspect, if set, sees each case's result (tests check invariants).
+	Inspect func(*ComparisonResult)
 }
 
 // CalibrationCase is one synthetic study and what explain made of it.
@@ -321,6 +323,9 @@ func calibrationCase(ctx context.Context, kb *knowledge.Base, set *rules.Set, op
 		return CalibrationCase{}, err
 	}
 	cr := res.Comparisons[0]
+	if opt.Inspect != nil {
+		opt.Inspect(&cr)
+	}
 	id := rules.None
 	if len(truth) > 0 {
 		var ids []string

@@ -65,7 +65,8 @@ func TestCalibrationSmall(t *testing.T) {
 	}
 	t.Parallel()
 	c, err := Calibrate(context.Background(), knowledge.MustDefault(), defaultSet(t), CalibrationOptions{Cases: 24, Seed: 7,
-		Explain: Options{Seed: 1, Draws: 24, FixedDraws: true, Workers: 1}})
+		Explain: Options{Seed: 1, Draws: 24, FixedDraws: true, Workers: 1},
+		Inspect: func(c *ComparisonResult) { checkInvariants(t, c, defaultSet(t)) }})
 	if err != nil {
 		t.Fatal(err)
 	}

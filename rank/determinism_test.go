@@ -115,6 +115,7 @@ func TestSeedStabilityDemo(t *testing.T) {
 			t.Fatal(err)
 		}
 		c := r.Comparisons[0]
+		checkInvariants(t, &c, defaultSet(t))
 		var top []string
 		for _, h := range c.Hypotheses[:3] {
 			top = append(top, h.ID)

@@ -42,6 +42,7 @@ func explainSynthetic(t *testing.T, tr truth, seed uint64) *ComparisonResult {
 	if err != nil {
 		t.Fatal(err)
 	}
+	checkInvariants(t, &res.Comparisons[0], defaultSet(t))
 	return &res.Comparisons[0]
 }
 
@@ -298,6 +299,7 @@ func TestNoneWinsOnNoise(t *testing.T) {
 					t.Fatal(err)
 				}
 				c := res.Comparisons[0]
+				checkInvariants(t, &c, defaultSet(t))
 				if c.Hypotheses[0].ID != "none" {
 					t.Errorf("seed %d (χ² %.1f): %s ranks first (%.2f), none %.2f", seed, chi2, c.Hypotheses[0].ID, c.Hypotheses[0].Posterior, c.Hypotheses[rankOf(&c, "none")].Posterior)
 				}

@@ -154,6 +154,7 @@ func TestRecoveryScan(t *testing.T) {
 				t.Fatal(err)
 			}
 			c := res.Comparisons[0]
+			checkInvariants(t, &c, defaultSet(t))
 			var top []string
 			for i, h := range c.Hypotheses {
 				if i < 3 {

@@ -133,6 +133,9 @@ func explainSeries(t *testing.T, st *study.Study) *SeriesResult {
 	if err != nil {
 		t.Fatal(err)
 	}
+	for i := range res.Comparisons {
+		checkInvariants(t, &res.Comparisons[i], defaultSet(t))
+	}
 	if len(res.Series) != 1 {
 		t.Fatalf("%d series results, want 1", len(res.Series))
 	}
