@@ -899,12 +899,17 @@ func steadyWarning(e *engine, pt part) string {
 const (
 	pairsFromWide  = 7
 	complementFrom = 8
-	maxPairs       = 16
+	maxPairs       = 20
+	// residualFrom singles each take up to residualPartners partners that
+	// best explain what they leave unexplained.
+	residualFrom     = 3
+	residualPartners = 3
 )
 
 // pairJobs chooses the pairs to score (DESIGN §5): the best singles with
-// each other, singles that each explain observables the other does not,
-// and a wider set when the best single fails its fit check. Two directions
+// each other, the partners that best explain what each of the best few
+// leaves unexplained, singles that each explain observables the other
+// does not, and a wider set when the best single fails its fit check. Two directions
 // of one response are never paired, and each pair lists its parts in the
 // order of the rules set.
 func (e *engine) pairJobs(entries []entry, none *scored) [][2]entry {
@@ -951,11 +956,50 @@ func (e *engine) pairJobs(entries []entry, none *scored) [][2]entry {
 			add(top[i], top[j])
 		}
 	}
+	noneM := none.moments()
+	// Residual partners: what a leading single leaves (observed minus its
+	// predicted mean) against each other single's departure from none,
+	// scaled by the best factor in [0, 2] (a linear screen: the pair itself
+	// is then computed exactly); the partners that remove the most χ²,
+	// at least 4 (two standard errors' worth), are paired with it.
+	for _, a := range pool[:min(residualFrom, len(pool))] {
+		ma := a.s.moments()
+		type gain struct {
+			b entry
+			g float64
+		}
+		var gains []gain
+		for _, b := range pool {
+			if b.cands[0].ID == a.cands[0].ID {
+				continue
+			}
+			mb := b.s.moments()
+			var rr, rd, dd float64
+			for o := range e.obs {
+				v := e.variance[o]
+				r := e.shift[o] - ma[o].Mean
+				d := mb[o].Mean - noneM[o].Mean
+				rr += r * r / v
+				rd += r * d / v
+				dd += d * d / v
+			}
+			if dd <= 0 {
+				continue
+			}
+			c := math.Min(math.Max(rd/dd, 0), 2)
+			if g := 2*c*rd - c*c*dd; g >= 4 {
+				gains = append(gains, gain{b, g})
+			}
+		}
+		sort.SliceStable(gains, func(i, j int) bool { return gains[i].g > gains[j].g })
+		for _, g := range gains[:min(residualPartners, len(gains))] {
+			add(a, g.b)
+		}
+	}
 	// Complements: each explains (moves its predicted mean at least half a
 	// standard error closer to the observation than none's) an observable
 	// the other does not.
 	cand := pool[:min(complementFrom, len(pool))]
-	noneM := none.moments()
 	explains := make([][]bool, len(cand))
 	for i, en := range cand {
 		m := en.s.moments()

@@ -22,7 +22,7 @@ const (
 	fine1        = 121
 	coarse2      = 7
 	fine2        = 41
-	coarseShare1 = 15
+	coarseShare1 = 11
 	coarseShare2 = 9
 )
 

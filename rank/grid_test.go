@@ -17,11 +17,21 @@ import (
 func TestSplineAccuracy(t *testing.T) {
 	t.Parallel()
 	kb := knowledge.MustDefault()
-	set := defaultSet(t)
-	st, err := study.Load("../testdata/demo/study.yaml", kb, study.Options{})
+	demo, err := study.Load("../testdata/demo/study.yaml", kb, study.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
+	// Sites where shares run close to 1 (a fertilized cropland nitrifies
+	// most of its NH4+) and a clear-cut's transient.
+	crop := synthesize(t, kb, truth{site: "fertilized-cropland", years: years(5), treatment: add("urea", 100), obs: obsRich, noiseFree: true}, 1)
+	cut := synthesize(t, kb, truth{site: "temperate-deciduous-forest", years: years(3), treatment: manage("clear-cut"), obs: obsRich, noiseFree: true}, 1)
+	for name, st := range map[string]*study.Study{"demo": demo, "cropland": crop, "clear-cut": cut} {
+		t.Run(name, func(t *testing.T) { splineAccuracy(t, kb, st) })
+	}
+}
+
+func splineAccuracy(t *testing.T, kb *knowledge.Base, st *study.Study) {
+	set := defaultSet(t)
 	e, err := newEngine(st, unit{idx: []int{0}}, kb, set, Options{Seed: 1, Draws: 2, ModelError: DefaultModelError})
 	if err != nil {
 		t.Fatal(err)
@@ -32,7 +42,8 @@ func TestSplineAccuracy(t *testing.T) {
 		for _, id := range ids {
 			k, why := e.compile(set.Candidate(id), len(ids) == 2)
 			if k == nil {
-				t.Fatal(why)
+				t.Logf("%v not tested here: %s", ids, why)
+				return
 			}
 			knobs = append(knobs, k)
 		}
