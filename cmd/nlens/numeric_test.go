@@ -289,8 +289,10 @@ groups:
 // nullable are the JSON fields that are null by contract (DESIGN §7): a
 // direction of none, a source or a pair; an interval that reaches no
 // bound; a flux ratio where the baseline flux is zero; a severity not
-// given; a duration of an addition that lasted to sampling.
-var nullable = map[string]bool{"direction": true, "at_bound": true, "flux_ratio": true, "severity": true, "duration_years": true, "duration": true, "modes": true, "series": true, "years": true}
+// given; a duration of an addition that lasted to sampling; the flux of a
+// magnitude beyond the first ten hypotheses with a posterior below 0.001
+// (not worked out).
+var nullable = map[string]bool{"direction": true, "at_bound": true, "flux_ratio": true, "flux": true, "flux_baseline": true, "severity": true, "duration_years": true, "duration": true, "modes": true, "series": true, "years": true}
 
 // countNulls counts null values in a decoded JSON document, except the
 // magnitude of the "none" hypothesis, which has none, and the fields that
