@@ -50,37 +50,6 @@ func rankOf(c *ComparisonResult, id string) int {
 	return slices.IndexFunc(c.Hypotheses, func(h Hypothesis) bool { return h.ID == id })
 }
 
-// separates reports whether a recommended measurement tells hypotheses a
-// and b apart: their predicted means differ by more than the larger
-// predictive sd (which includes the measurement noise).
-func separates(m Measurement, a, b string) bool {
-	pa, oka := m.Predicted[a]
-	pb, okb := m.Predicted[b]
-	return oka && okb && math.Abs(pa.Mean-pb.Mean) > math.Max(pa.SD, pb.SD)
-}
-
-// recovered applies the criterion: the generating change ranks
-// first, or it ranks second and one of the top three next measurements
-// separates it from the leader (the tie is named with its tie-breaker).
-func recovered(c *ComparisonResult, want string) (bool, string) {
-	r := rankOf(c, want)
-	switch {
-	case r == 0:
-		return true, ""
-	case r == 1:
-		leader := c.Hypotheses[0].ID
-		for i, m := range c.Measurements {
-			if i < 3 && separates(m, want, leader) {
-				return true, "tie with " + leader + " broken by " + m.ID
-			}
-		}
-		return false, "second behind " + leader + " with no separating measurement in the top three"
-	case r < 0:
-		return false, "not ranked"
-	}
-	return false, "ranked " + c.Hypotheses[0].ID + " first; truth at " + string(rune('1'+r))
-}
-
 var (
 	obsRich  = []string{"foliage", "soil", "soil-nitrate", "soil-ammonium", "nitrate-d18o"}
 	obsFungi = []string{"foliage", "soil", "soil-nitrate", "soil-ammonium", "fungi"}
