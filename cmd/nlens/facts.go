@@ -12,15 +12,18 @@ import (
 func newFactsCmd(e *env) *cobra.Command {
 	var format string
 	cmd := &cobra.Command{
-		Use:   "facts [effects|sources|sites|measurements|references]",
-		Short: "Show the knowledge base: isotope effects, sources, site templates, measurements, references",
+		Use:   "facts [effects|sources|forcings|sites|measurements|references]",
+		Short: "Show the knowledge base: isotope effects, sources, forcings, site templates, measurements, references",
 		Long: strings.TrimSpace(`
 facts prints what nlens assumes, with the sources behind every number:
 isotope effects (ε, range, ecosystem-expressed or intrinsic, δ18O:δ15N
-ratio), source end-members, built-in site templates, the measurement
+ratio), source end-members, the known treatments (what clear-cut,
+burned and grazed apply in every hypothesis, with their uncertain sizes),
+built-in site templates, the measurement
 catalogue and the references. Without a section it prints all of them.`),
 		Example: strings.Trim(`
   nlens facts effects
+  nlens facts forcings
   nlens facts sources --format json
   nlens facts references --format bib > nlens.bib`, "\n"),
 		Args:      cobra.MaximumNArgs(1),

@@ -13,7 +13,7 @@ import (
 )
 
 // FactSections are the sections `nlens facts` can show.
-var FactSections = []string{"effects", "sources", "sites", "measurements", "references"}
+var FactSections = []string{"effects", "sources", "forcings", "sites", "measurements", "references"}
 
 // Facts writes one section of the knowledge base (or all, for section "")
 // as a table, JSON, or (references only) BibTeX.
@@ -48,6 +48,8 @@ func Facts(w io.Writer, kb *knowledge.Base, section, format string) error {
 			err = effectsTable(ew, kb)
 		case "sources":
 			err = sourcesTable(ew, kb)
+		case "forcings":
+			err = forcingsTable(ew, kb)
 		case "sites":
 			err = sitesTable(ew, kb)
 		case "measurements":
@@ -118,6 +120,63 @@ func sourcesTable(w io.Writer, kb *knowledge.Base) error {
 	return wrappedTable(w, []string{"source", "enters", "δ15N", "range", "δ18O", "sources"}, "llrlrl", rows, []int{0, 0, 0, 0, 0, 24})
 }
 
+// forcingsTable lists what each management tag applies to the treatment
+// arm (DESIGN §4): one row per move or rate change, by severity where the
+// tag has severities, with the size drawn as a nuisance (typical, range).
+func forcingsTable(w io.Writer, kb *knowledge.Base) error {
+	fmt.Fprintf(w, "Known treatments: what each management tag applies in every hypothesis\n")
+	fmt.Fprintf(w, "(uncertain sizes are drawn per draw: triangular over the range, mode typical)\n\n")
+	size := func(s knowledge.Size, unit string) string {
+		return fmt.Sprintf("%s%s (%s)", strconv.FormatFloat(s.Typical, 'g', 3, 64), unit, fmtRange(s.Range))
+	}
+	var rows [][]string
+	effect := func(tag string, moves []knowledge.MoveForcing, rates []knowledge.RateForcing, src string) {
+		for _, m := range moves {
+			what := fmt.Sprintf("%s: share %s of %s → %s", m.Label, size(m.Share, ""), m.From, m.To)
+			if m.Epsilon != nil {
+				what += fmt.Sprintf(", ε %s", size(*m.Epsilon, " ‰"))
+			}
+			rows = append(rows, []string{tag, what, src})
+			tag, src = "", ""
+		}
+		for _, r := range rates {
+			what := fmt.Sprintf("%s: rate constants of %s multiplied by %s", r.Label, strings.Join(r.Processes, ", "), size(r.Factor, ""))
+			if r.Years != nil {
+				what += fmt.Sprintf(" for %s", size(*r.Years, " yr"))
+			}
+			rows = append(rows, []string{tag, what, src})
+			tag, src = "", ""
+		}
+	}
+	for _, m := range kb.Forcings.Management {
+		tag := m.ID
+		if len(m.Aliases) > 0 {
+			tag += " (" + strings.Join(m.Aliases, ", ") + ")"
+		}
+		src := cites(kb, m.Refs)
+		if m.Status != "" {
+			src += " [" + m.Status + "]"
+		}
+		effect(tag, m.Moves, m.Rates, src)
+		for _, sev := range knowledge.Severities {
+			if e, ok := m.Severity[sev]; ok {
+				effect(tag+"\n  severity "+sev, e.Moves, e.Rates, src)
+				tag, src = "", ""
+			}
+		}
+		if g := m.Grazing; g != nil {
+			rows = append(rows, []string{tag, fmt.Sprintf("grazing: offtake %s of the foliage outflow, export %s of the intake, urine %s of excreta (the rest dung)",
+				size(g.Offtake, ""), size(g.Export, ""), size(g.Urine, "")), src})
+		}
+	}
+	if err := wrappedTable(w, []string{"management", "applied to the treatment arm", "sources"}, "lll", rows, []int{0, 32, 22}); err != nil {
+		return err
+	}
+	_, err := fmt.Fprintf(w, "%s\nDeclared additions are inputs of their source; see `nlens facts sources`.\n",
+		wrap("Context only (priors, no forcing): "+strings.Join(kb.Forcings.ContextOnly, ", "), 76))
+	return err
+}
+
 func sitesTable(w io.Writer, kb *knowledge.Base) error {
 	fmt.Fprintf(w, "Site templates (use with --site ID or site: {template: ID})\n\n")
 	var rows [][]string
@@ -154,6 +213,7 @@ type factsOut struct {
 	NitrateOxygen *knowledge.NitrateOxygen `json:"nitrate_oxygen,omitempty"`
 	Effects       []knowledge.Effect       `json:"effects,omitempty"`
 	Sources       []knowledge.Source       `json:"sources,omitempty"`
+	Forcings      *knowledge.Forcings      `json:"forcings,omitempty"`
 	Sites         []siteOut                `json:"sites,omitempty"`
 	Measurements  []knowledge.Measurement  `json:"measurements,omitempty"`
 	References    []knowledge.Reference    `json:"references,omitempty"`
@@ -176,6 +236,8 @@ func factsJSON(w io.Writer, kb *knowledge.Base, sections []string) error {
 			out.Effects = kb.Effects
 		case "sources":
 			out.Sources = kb.Sources
+		case "forcings":
+			out.Forcings = &kb.Forcings
 		case "sites":
 			for _, id := range kb.SiteIDs() {
 				sf, _ := kb.Site(id)
