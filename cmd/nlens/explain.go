@@ -199,7 +199,7 @@ Welch standard errors) that explain would work with.`),
 				if err != nil {
 					return err
 				}
-				return report.Observed(humanOut(e.stdout, report.FormatTable), st)
+				return report.Observed(humanOut(e.stdout, report.FormatTable), st, e.kb)
 			})
 		},
 	}

@@ -5,10 +5,8 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"slices"
 	"sort"
 	"strconv"
-	"strings"
 
 	"nlens/rank"
 	"nlens/rank/study"
@@ -292,43 +290,6 @@ func JSON(w io.Writer, r *rank.Result) error {
 	return enc.Encode(ToJSON(r))
 }
 
-// Observed writes a study's observed shifts as a table (nlens check).
-func Observed(w io.Writer, st *study.Study) error {
-	ew := &errWriter{w: w}
-	title := st.Title
-	if title == "" {
-		title = st.File
-	}
-	site := st.SiteRef
-	if st.SiteRef != st.Site.ID {
-		site = fmt.Sprintf("%s (site %s)", st.SiteRef, st.Site.ID)
-	}
-	ew.printf("%s\nsite model: %s\n", title, site)
-	if st.Samples != nil {
-		ew.printf("%s\n", wrap("samples: "+st.Samples.String(), 78))
-	}
-	for _, c := range st.Comparisons {
-		ew.printf("\n%s\n\n", wrap(fmt.Sprintf("%s (treatment %q, control %q), %s", c.Name, c.Treatment, c.Control, when(c.Years)), 78))
-		if err := observedTable(ew, c.Observed); err != nil {
-			return err
-		}
-		for _, a := range c.Additions {
-			d := "δ15N from the source's range"
-			if a.D15N != nil {
-				d = fmt.Sprintf("δ15N %s ‰ measured", signed(*a.D15N, 1))
-			}
-			ew.printf("%s\n", wrap(fmt.Sprintf("declared addition: %s %s kg N/ha/yr (%s)", a.Source, num(a.RateKgPerHaYr), d), 78))
-		}
-		if len(c.Management) > 0 {
-			ew.printf("management: %s\n", strings.Join(c.Management, ", "))
-		}
-	}
-	for _, wmsg := range append(slices.Clone(st.Site.Warnings), st.Warnings...) {
-		ew.printf("%s\n", wrap("warning: "+wmsg, 78))
-	}
-	return ew.err
-}
-
 func when(years *float64) string {
 	if years == nil {
 		return "long-standing contrast (compared at steady state)"
@@ -346,6 +307,9 @@ func observedTable(w io.Writer, obs []study.Observed) error {
 			unit = "ln ratio"
 			shift, se = plusSigned(o.Shift, 3), signed(o.SE, 3)
 			ctl, trt = num(o.Control.Mean), num(o.Treatment.Mean)
+		}
+		if o.NoLevels() {
+			ctl, trt = "—", "—" // a shift from a paper: no group levels
 		}
 		rows = append(rows, []string{o.Observable, ctl, trt, shift, se, unit})
 	}
