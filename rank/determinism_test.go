@@ -85,9 +85,13 @@ func TestPosteriorsAreProbabilities(t *testing.T) {
 		t.Errorf("posteriors sum to %.12f", sum)
 	}
 	ms := r.Comparisons[0].Measurements
-	for i := 1; i < len(ms); i++ {
-		if ms[i].Bits > ms[i-1].Bits {
-			t.Errorf("measurements not sorted by bits at %d", i)
+	// sorted by information, cheaper first among those within bitsTie
+	// of the best of their run: none is bitsTie above an earlier one
+	for i := range ms {
+		for j := i + 1; j < len(ms); j++ {
+			if ms[j].Bits >= ms[i].Bits+bitsTie {
+				t.Errorf("measurement %d (%.3f bits) listed after %d (%.3f bits)", j, ms[j].Bits, i, ms[i].Bits)
+			}
 		}
 	}
 }

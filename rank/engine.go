@@ -325,10 +325,16 @@ func (e *engine) changeFor(w *worker, d, pi int, knobs []*knob, theta []float64)
 // run computes the state of part pi at its horizon for knobs at theta under
 // draw d into w.x; the parameters then in force are w.run.Final().
 func (e *engine) run(w *worker, d, pi int, knobs []*knob, theta []float64, withO bool) error {
+	return e.runTo(w, d, pi, knobs, theta, withO, e.parts[pi].cmp.Years)
+}
+
+// runTo is run to the time years after the treatment began (the new
+// steady state when years is nil).
+func (e *engine) runTo(w *worker, d, pi int, knobs []*knob, theta []float64, withO bool, years *float64) error {
 	e.changeFor(w, d, pi, knobs, theta)
 	p := &e.draws[d].params
-	if y := e.parts[pi].cmp.Years; y != nil {
-		return w.run.Advance(w.model, p, &w.change, &e.base[d], *y, withO, &w.x)
+	if years != nil {
+		return w.run.Advance(w.model, p, &w.change, &e.base[d], *years, withO, &w.x)
 	}
 	return w.run.Steady(w.model, p, &w.change, withO, &w.x)
 }

@@ -318,9 +318,12 @@ const (
 )
 
 // fluxes fills each hypothesis's magnitudes with the flux they imply at
-// part pi's observation time: over posterior samples, the flux of each
-// knob's processes under the treatment against the same draw's baseline
-// flux.
+// part pi's observation time, or for a pulse in the middle of the pulse
+// (half its duration, at most the observation time): over posterior
+// samples, the flux of each knob's processes under the treatment against
+// the same draw's baseline flux. The baseline printed is the median of the
+// draws' baselines, so that it, the median flux and the median ratio
+// describe the same samples.
 func (e *engine) fluxes(cr *ComparisonResult, entries []entry, pi int) {
 	w := newWorker(e.site)
 	for i := range cr.Hypotheses {
@@ -332,13 +335,27 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, pi int) {
 		rng := newRand(e.opt.Seed, e.stream, 2000+1000*uint64(pi)+uint64(i))
 		n := len(s.knobs)
 		vals := make([][]float64, n)
+		bases := make([][]float64, n)
 		ratios := make([][]float64, n)
 		theta := make([]float64, n)
+		dur := slices.IndexFunc(s.knobs, func(k *knob) bool { return k.kind == kindDuration })
+		var atYears []float64
 		for _, fd := range s.sample(fluxSamples, rng) {
 			theta = s.fineTheta(fd[0], theta)
 			d := fd[1]
-			if e.run(w, d, pi, s.knobs, theta, false) != nil {
+			years := e.parts[pi].cmp.Years
+			if dur >= 0 {
+				mid := theta[dur] / 2
+				if years != nil {
+					mid = math.Min(mid, *years)
+				}
+				years = &mid
+			}
+			if e.runTo(w, d, pi, s.knobs, theta, false, years) != nil {
 				continue
+			}
+			if years != nil {
+				atYears = append(atYears, *years)
 			}
 			for a, k := range s.knobs {
 				if k.kind == kindDuration {
@@ -356,6 +373,7 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, pi int) {
 					was = forward.FluxAt(e.site, &e.draws[d].params, &e.base[d], k.fluxJ)
 				}
 				vals[a] = append(vals[a], now)
+				bases[a] = append(bases[a], was)
 				if was > 0 {
 					ratios[a] = append(ratios[a], now/was)
 				}
@@ -371,14 +389,12 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, pi int) {
 			if len(vals[a]) == 0 {
 				continue
 			}
-			f := &FluxImplied{}
-			switch k.kind {
-			case rules.KnobSource:
-				f.Baseline = 0
-			case rules.KnobFixation:
-				f.Baseline = forward.KnobValue(e.site, &e.draws[0].params, *k.fk)
-			default:
-				f.Baseline = forward.FluxAt(e.site, &e.draws[0].params, &e.base[0], k.fluxJ)
+			f := &FluxImplied{Pulse: dur >= 0}
+			if len(atYears) > 0 {
+				f.AtYears, _, _ = quantiles(atYears)
+			}
+			if k.kind != rules.KnobSource {
+				f.Baseline, _, _ = quantiles(bases[a])
 			}
 			f.Median, f.Low, f.High = quantiles(vals[a])
 			if len(ratios[a]) == len(vals[a]) {

@@ -226,9 +226,15 @@ type Duration struct {
 }
 
 // FluxImplied is the flux of a response's processes at the observation
-// time under the treatment, against the same flux at baseline, over
-// posterior samples (kg N/ha/yr; ratio new/baseline).
+// time under the treatment (for a pulse: in the middle of the pulse),
+// against the same flux at baseline, over posterior samples (kg N/ha/yr;
+// ratio new/baseline; Baseline is the median of the draws' baselines).
 type FluxImplied struct {
+	// AtYears is the (median) time after the treatment began at which the
+	// flux was evaluated, 0 at a new steady state; Pulse is set when that
+	// is the middle of a pulse response.
+	AtYears                  float64
+	Pulse                    bool
 	Baseline                 float64
 	Median, Low, High        float64
 	Ratio, RatioLow, RatioHi float64

@@ -121,7 +121,9 @@ func (s Stat) SE() float64 { return s.SD / math.Sqrt(float64(s.N)) }
 
 // Observed is the shift of one observable.
 type Observed struct {
-	Observable         string
+	Observable string
+	// Shift and SE are treatment minus control; DF is the Welch degrees
+	// of freedom of SE (0 when unknown: a shift given from a paper).
 	Shift, SE, DF      float64
 	Control, Treatment Stat
 	LogRatio           bool // pool or flux: shift is ln(treatment/control)
@@ -539,7 +541,7 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 					bad(sf+".se", append(sp, "se"), "se must be a number > 0, got %g", *e.SE)
 					continue
 				}
-				c.Observed = append(c.Observed, Observed{Observable: obs, Shift: *e.Shift, SE: *e.SE, DF: math.Inf(1), LogRatio: forward.LogRatioName(obs)})
+				c.Observed = append(c.Observed, Observed{Observable: obs, Shift: *e.Shift, SE: *e.SE, DF: 0, LogRatio: forward.LogRatioName(obs)})
 			}
 		}
 		if ok {
