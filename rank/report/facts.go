@@ -110,14 +110,30 @@ func effectsTable(w io.Writer, kb *knowledge.Base) error {
 func sourcesTable(w io.Writer, kb *knowledge.Base) error {
 	fmt.Fprintf(w, "N sources: δ15N in ‰ vs AIR, δ18O in ‰ vs VSMOW\n\n")
 	var rows [][]string
+	g4 := func(v float64) string { return strconv.FormatFloat(v, 'g', 4, 64) }
 	for _, s := range kb.Sources {
-		d18 := ""
-		if s.D18OPermil != nil {
-			d18 = strconv.FormatFloat(*s.D18OPermil, 'g', 4, 64)
+		if len(s.Parts) <= 1 {
+			d18 := ""
+			if s.D18OPermil != nil {
+				d18 = g4(*s.D18OPermil)
+			}
+			rows = append(rows, []string{s.ID, s.Pool, g4(s.D15NPermil), fmtRange(s.D15NRangePermil), d18, cites(kb, s.Refs)})
+			continue
 		}
-		rows = append(rows, []string{s.ID, s.Pool, strconv.FormatFloat(s.D15NPermil, 'g', 4, 64), fmtRange(s.D15NRangePermil), d18, cites(kb, s.Refs)})
+		// a source with parts (ammonium nitrate, deposition): one line each
+		for i, p := range s.Parts {
+			id, src := "", ""
+			if i == 0 {
+				id, src = s.ID, cites(kb, s.Refs)
+			}
+			d18 := ""
+			if p.D18OPermil != nil {
+				d18 = g4(*p.D18OPermil)
+			}
+			rows = append(rows, []string{id, fmt.Sprintf("%s %s %%", p.Pool, g4(100*p.Share)), g4(p.D15NPermil), fmtRange(p.D15NRangePermil), d18, src})
+		}
 	}
-	return wrappedTable(w, []string{"source", "enters", "δ15N", "range", "δ18O", "sources"}, "llrlrl", rows, []int{0, 0, 0, 0, 0, 24})
+	return wrappedTable(w, []string{"source", "enters", "δ15N", "range", "δ18O", "sources"}, "llrlrl", rows, []int{0, 0, 0, 0, 0, 20})
 }
 
 // forcingsTable lists what each management tag applies to the treatment
