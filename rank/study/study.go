@@ -310,6 +310,11 @@ func Parse(file string, data []byte, kb *knowledge.Base, opt Options, readFile f
 		if ctx.LandUse == "" && st.Site != nil {
 			ctx.LandUse = st.Site.LandUse
 		}
+		if ctx.Drainage == "" && ctx.LandUse == "wetland" {
+			// A wetland is poorly drained unless the study says otherwise
+			// (the context default its land use implies, DEVELOPERS.md).
+			ctx.Drainage = "poor"
+		}
 		for k, n := range se.Nearby {
 			if !slices.Contains(knowledge.NearbyKinds, n) {
 				bad(fmt.Sprintf("site.nearby[%d]", k), []any{"site", "nearby", k}, "expected one of %s, got %q", strings.Join(knowledge.NearbyKinds, ", "), n)

@@ -2,6 +2,7 @@ package study
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"nlens/knowledge/input"
 	"os"
@@ -303,6 +304,25 @@ func TestDoseScale(t *testing.T) {
 	for i, want := range []float64{35.0 / 108, 70.0 / 108, 1} { // Norrliden doses, FACTS-2 §1a
 		if math.Abs(got[i]-want) > 1e-12 {
 			t.Errorf("level %d: %g, want %g", i, got[i], want)
+		}
+	}
+}
+
+// A wetland template implies poor drainage unless the study says otherwise
+// (the context default of its land use; DEVELOPERS.md decisions).
+func TestWetlandDrainageDefault(t *testing.T) {
+	t.Parallel()
+	const base = `site: {template: riparian-wetland%s}
+comparisons:
+  - {name: a, years: steady, shifts: {soil-nitrate: {shift: 8, se: 1.2}}}
+`
+	for _, tc := range []struct{ extra, want string }{{"", "poor"}, {", drainage: moderate", "moderate"}} {
+		st, err := parse(t, fmt.Sprintf(base, tc.extra), nil, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if st.Context.Drainage != tc.want {
+			t.Errorf("site%q: drainage %q, want %q", tc.extra, st.Context.Drainage, tc.want)
 		}
 	}
 }
