@@ -213,8 +213,9 @@ func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int, pi 
 	if err != nil {
 		return nil
 	}
-	var out []Path
-	for k, i := range leading {
+	out := make([]Path, len(leading))
+	parallel(len(leading), e.opt.Workers, e.site, func(k int, w *worker) {
+		i := leading[k]
 		s := entries[i].s
 		rng := newRand(e.opt.Seed, e.stream, 3000+1000*uint64(pi)+uint64(k))
 		// values[o][t] over samples
@@ -267,8 +268,8 @@ func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int, pi 
 				pth.Shifts[name], pth.Low[name], pth.High[name] = med, lo, hi
 			}
 		}
-		out = append(out, pth)
-	}
+		out[k] = pth
+	})
 	return out
 }
 
@@ -325,11 +326,10 @@ const (
 // draws' baselines, so that it, the median flux and the median ratio
 // describe the same samples.
 func (e *engine) fluxes(cr *ComparisonResult, entries []entry, pi int) {
-	w := newWorker(e.site)
-	for i := range cr.Hypotheses {
+	parallel(len(cr.Hypotheses), e.opt.Workers, e.site, func(i int, w *worker) {
 		h := &cr.Hypotheses[i]
 		if len(h.Magnitudes) == 0 || (i >= fluxAlways && h.Posterior < fluxMinPosterior) {
-			continue
+			return
 		}
 		s := entries[i].s
 		rng := newRand(e.opt.Seed, e.stream, 2000+1000*uint64(pi)+uint64(i))
@@ -403,7 +403,7 @@ func (e *engine) fluxes(cr *ComparisonResult, entries []entry, pi int) {
 			}
 			h.Magnitudes[mi].Flux = f
 		}
-	}
+	})
 }
 
 // quantiles returns the median and the 5 % and 95 % points of v.
