@@ -718,12 +718,20 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 			hyps[0].Posterior += hyps[i].Posterior
 			hyps[i].Posterior = 0
 			if !hyps[i].Pair && !entries[i].pulse {
-				quiet = append(quiet, hyps[i].ID)
+				quiet = append(quiet, hyps[i].Label)
 			}
 		}
 	}
 	if len(quiet) > 0 {
-		sc.warnf("%s would not move the observed quantities beyond their standard error from what %s predicts anywhere in %s prior range, so the data cannot speak to %s; %s counted with %q", strings.Join(quiet, ", "), hyps[0].Label, map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1], hyps[0].Label)
+		one := len(quiet) == 1
+		pick := func(single, plural string) string {
+			if one {
+				return single
+			}
+			return plural
+		}
+		sc.warnf("the data cannot speak to %s: %s: %s keep the observed quantities within their standard errors of what %s predicts over %s whole prior range, so %s counted with it",
+			pick("one response", fmt.Sprintf("%d responses", len(quiet))), strings.Join(quiet, ", "), pick("it would", "they would"), hyps[0].Label, pick("its", "their"), pick("it is", "they are"))
 	}
 	// Monte Carlo error of each posterior: dlog p_H = (1 − p_H)·dlog Z_H −
 	// Σ_{k≠H} p_k·dlog Z_k, with the relative variances of the evidences
