@@ -1,7 +1,6 @@
 package report
 
 import (
-	"encoding/json"
 	"io"
 	"strconv"
 	"strings"
@@ -31,9 +30,7 @@ func Q(name string, v float64, unit string) Quantity { return Quantity{name, fin
 // WriteAnswer renders an answer as text or JSON.
 func WriteAnswer(w io.Writer, a Answer, format string) error {
 	if format == FormatJSON {
-		enc := json.NewEncoder(w)
-		enc.SetIndent("", "  ")
-		return enc.Encode(a)
+		return writeJSON(w, a)
 	}
 	ew := &errWriter{w: w}
 	ew.printf("%s\n\n", a.Title)
