@@ -67,21 +67,3 @@ func WriteAnswer(w io.Writer, a Answer, format string) error {
 	}
 	return ew.err
 }
-
-// decimalsFor shows small numbers with enough digits.
-func decimalsFor(v float64) int {
-	switch a := abs(v); {
-	case a == 0 || a >= 1:
-		return 3
-	case a >= 0.01:
-		return 4
-	}
-	return 7
-}
-
-func abs(v float64) float64 {
-	if v < 0 {
-		return -v
-	}
-	return v
-}

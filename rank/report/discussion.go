@@ -198,15 +198,6 @@ func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) stri
 // common practice; the engine's own no-fit threshold is stricter).
 const adequateFit = 0.05
 
-// pValue is "p = 0.27" or "p < 0.001".
-func pValue(p float64) string {
-	s := fmtP(p)
-	if strings.HasPrefix(s, "<") {
-		return "p " + s
-	}
-	return "p = " + s
-}
-
 // under is "the nitrification scenario", "no change".
 func (d *drafter) under(h rank.Hypothesis) string {
 	if h.ID == rank.NoneID {
@@ -326,13 +317,6 @@ func (d *drafter) academicPart(m rank.Magnitude) string {
 type patternText struct {
 	text   string
 	plural bool
-}
-
-func (p patternText) verb(singular, plural string) string {
-	if p.plural {
-		return plural
-	}
-	return singular
 }
 
 func verb(n int, singular, plural string) string {

@@ -2,7 +2,6 @@ package report
 
 import (
 	"fmt"
-	"strconv"
 	"strings"
 
 	"nlens/rank"
@@ -12,21 +11,6 @@ import (
 // flux): a share as "takes 62 % of the NH4+ outflow, up from 21 %" and the
 // flux it implies as a ratio to the baseline flux. A rate-constant
 // multiplier is never shown (DESIGN §4).
-
-// pctText prints a share as a percentage with two significant digits
-// (three at or above 99.5 %, so 0.996 is not rounded to 100 %).
-func pctText(v float64) string {
-	p := 100 * v
-	switch {
-	case p >= 99.5:
-		return strconv.FormatFloat(p, 'f', 1, 64)
-	case p >= 10:
-		return strconv.FormatFloat(p, 'f', 0, 64)
-	case p >= 1:
-		return strconv.FormatFloat(p, 'f', 1, 64)
-	}
-	return strconv.FormatFloat(p, 'g', 2, 64)
-}
 
 // isShare reports whether a magnitude is a share (0–1).
 func isShare(m rank.Magnitude) bool { return m.Kind != "input" }

@@ -3,7 +3,6 @@ package report
 import (
 	"fmt"
 	"io"
-	"math"
 	"strconv"
 	"strings"
 
@@ -312,14 +311,6 @@ func methods(r *rank.Result, kb *knowledge.Base, ci citer) string {
 	fmt.Fprintf(&b, "To reproduce: `%s --seed %d --draws %d --model-error %s` with nlens %s and the same knowledge base.\n\n",
 		cmd, r.Seed, m.Draws, trimFloat(m.ModelErrorPermil), r.Version)
 	return b.String()
-}
-
-// trimFloat prints a setting with up to 6 significant digits.
-func trimFloat(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "n/a"
-	}
-	return strconv.FormatFloat(v, 'g', 6, 64)
 }
 
 // shellQuote quotes a path for a POSIX shell when it needs it.

@@ -107,35 +107,6 @@ func leadingIndex(c rank.ComparisonResult) []int {
 	return out
 }
 
-// sig2 prints two significant digits (three at or above 100).
-func sig2(v float64) string {
-	if v >= 100 {
-		return strconv.FormatFloat(v, 'f', 0, 64)
-	}
-	return strconv.FormatFloat(v, 'g', 2, 64)
-}
-
-func fmtProb(p float64) string {
-	switch {
-	case p >= 0.995:
-		return "> 0.99"
-	case p < 0.005:
-		return "< 0.01"
-	}
-	return strconv.FormatFloat(p, 'f', 2, 64)
-}
-
-func fmtP(p float64) string {
-	if p < 0.001 {
-		return "< 0.001"
-	}
-	return strconv.FormatFloat(p, 'f', 2, 64)
-}
-
-func pm(mean, sd float64, dec int) string {
-	return plusSigned(mean, dec) + "±" + signed(sd, dec)
-}
-
 func shortMeasurement(m rank.Measurement) string {
 	return m.ID
 }

@@ -5,6 +5,7 @@ import (
 	"math"
 	"sort"
 	"strconv"
+	"unicode/utf8"
 	"strings"
 
 	"nlens/forward"
@@ -411,4 +412,18 @@ func siteRefs(r *rank.Result, kb *knowledge.Base) []string {
 		return nil
 	}
 	return site.References
+}
+
+func (p patternText) verb(singular, plural string) string {
+	if p.plural {
+		return plural
+	}
+	return singular
+}
+
+func capitalize(s string) string {
+	for i, r := range s {
+		return strings.ToUpper(string(r)) + s[i+utf8.RuneLen(r):]
+	}
+	return s
 }

@@ -220,13 +220,6 @@ func (n namer) ifClause(h rank.Hypothesis, full bool) string {
 	return "if " + n.short(h)
 }
 
-func capitalize(s string) string {
-	for i, r := range s {
-		return strings.ToUpper(string(r)) + s[i+utf8.RuneLen(r):]
-	}
-	return s
-}
-
 // short names a hypothesis briefly, for "if … is behind the shift".
 func (n namer) short(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
