@@ -5,8 +5,8 @@ import (
 	"math"
 	"sort"
 	"strconv"
-	"unicode/utf8"
 	"strings"
+	"unicode/utf8"
 
 	"nlens/forward"
 	"nlens/knowledge"
