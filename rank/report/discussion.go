@@ -306,10 +306,7 @@ func (d *drafter) academic(h rank.Hypothesis) string {
 }
 
 func (d *drafter) academicPart(m rank.Magnitude) string {
-	if strings.HasPrefix(m.Candidate, rank.SourcePrefix) {
-		return magnitudeWords{m}.sentence("an undeclared input of " + d.n.sourceName(m.Candidate))
-	}
-	return magnitudeWords{m}.sentence(m.Direction + " " + m.Process)
+	return d.n.part(m) + " (" + magnitudeWords{m}.prose() + ")"
 }
 
 // patternText is a comparison's observed pattern as a noun phrase, and
@@ -335,9 +332,9 @@ func (d *drafter) pattern(c rank.ComparisonResult) patternText {
 	for _, o := range orderedObserved(c.Observed) {
 		name := obsName(o.Observable)
 		if o.LogRatio {
-			v := fmt.Sprintf("%s (ln ratio %s ± %s)", name, plusSigned(o.Shift, 2), signed(o.SE, 2))
+			v := fmt.Sprintf("%s (%s; ln ratio %s ± %s)", name, changeWords(math.Exp(o.Shift)), plusSigned(o.Shift, 2), signed(o.SE, 2))
 			switch {
-			case math.Abs(o.Shift) < clearSE*o.SE:
+			case shiftStrength(o.Shift, o.SE) == withinNoise:
 				unclear = append(unclear, v)
 			case o.Shift > 0:
 				bigger = append(bigger, v)
@@ -348,7 +345,7 @@ func (d *drafter) pattern(c rank.ComparisonResult) patternText {
 		}
 		v := fmt.Sprintf("%s (%s ± %s ‰)", name, plusSigned(o.Shift, 1), signed(o.SE, 1))
 		switch {
-		case math.Abs(o.Shift) < clearSE*o.SE:
+		case shiftStrength(o.Shift, o.SE) == withinNoise:
 			unclear = append(unclear, v)
 		case o.Shift > 0:
 			up = append(up, v)

@@ -52,7 +52,7 @@ func when(years *float64) string {
 	if years == nil {
 		return "long-standing contrast (compared at steady state)"
 	}
-	return fmt.Sprintf("%s years after the treatment began", strconv.FormatFloat(*years, 'g', 4, 64))
+	return count(*years, strconv.FormatFloat(*years, 'g', 4, 64), "year", "years") + " after the treatment began"
 }
 
 func observedTable(w io.Writer, obs []study.Observed) error {

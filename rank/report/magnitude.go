@@ -28,16 +28,26 @@ type magnitudeWords struct{ rank.Magnitude }
 
 // interval prints the 90 % interval, or the open side where it reaches a
 // prior bound: "45–80 %", "≥ 45 %", "≤ 80 %".
-func (m magnitudeWords) interval() string {
+func (m magnitudeWords) interval() string { return m.intervalIn(false) }
+
+// intervalWords is interval for running text: "45–80 %", "at least
+// 45 %", "at most 80 %".
+func (m magnitudeWords) intervalWords() string { return m.intervalIn(true) }
+
+func (m magnitudeWords) intervalIn(prose bool) string {
+	atLeast, atMost := "≥ ", "≤ "
+	if prose {
+		atLeast, atMost = "at least ", "at most "
+	}
 	if len(m.Modes) == 2 {
 		a, b := m.Modes[0], m.Modes[1]
 		return "two modes: " + m.value(a.Best) + " (" + m.value(a.Low) + "–" + m.value(a.High) + ") or " + m.value(b.Best) + " (" + m.value(b.Low) + "–" + m.value(b.High) + ")"
 	}
 	switch m.AtBound {
 	case "high":
-		return "≥ " + m.value(m.Low)
+		return atLeast + m.value(m.Low)
 	case "low":
-		return "≤ " + m.value(m.High)
+		return atMost + m.value(m.High)
 	case "both":
 		return "anywhere in " + m.value(m.PriorLow) + "–" + m.value(m.PriorHigh)
 	}
@@ -45,6 +55,20 @@ func (m magnitudeWords) interval() string {
 		return pctText(m.Low) + "–" + pctText(m.High) + " %"
 	}
 	return sig2(m.Low) + "–" + sig2(m.High) + " kg N/ha/yr"
+}
+
+// fluxWords says what the magnitude means for its flux at the time of
+// sampling: "its flux about 85 % lower than at baseline"; "" where there
+// is no baseline flux to compare with.
+func (m magnitudeWords) fluxWords() string {
+	f := m.Flux
+	if f == nil || !f.HasRatio || m.Kind == "input" {
+		return ""
+	}
+	if cw := changeWords(f.Ratio); cw != "about the same" {
+		return "that flux " + cw + " than at baseline"
+	}
+	return "that flux about the same as at baseline"
 }
 
 // short is the compact form for tables: "62 % (45–80 %), was 21 %;
@@ -57,7 +81,7 @@ func (m magnitudeWords) short() string {
 		b.WriteString(", was " + m.value(m.Baseline))
 	}
 	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
-		b.WriteString("; flux ×" + sig2(f.Ratio))
+		b.WriteString("; flux " + changeShort(f.Ratio))
 	}
 	return b.String()
 }
@@ -70,38 +94,38 @@ func (m magnitudeWords) sentence(process string) string {
 	switch m.Kind {
 	case "input":
 		if m.Baseline > 0 {
-			s = fmt.Sprintf("%s of about %s (90 %% interval %s), against %s in the site model", process, m.value(m.Best), m.interval(), m.value(m.Baseline))
+			s = fmt.Sprintf("%s of about %s (90 %% interval %s), against %s in the site model", process, m.value(m.Best), m.intervalWords(), m.value(m.Baseline))
 		} else {
-			s = fmt.Sprintf("%s of about %s (90 %% interval %s)", process, m.value(m.Best), m.interval())
+			s = fmt.Sprintf("%s of about %s (90 %% interval %s)", process, m.value(m.Best), m.intervalWords())
 		}
 	default:
 		dir := "up"
 		if m.Direction == "less" {
 			dir = "down"
 		}
-		s = fmt.Sprintf("%s taking %s (90 %% interval %s) of %s, %s from %s", process, m.value(m.Best), m.interval(), m.Of, dir, m.value(m.Baseline))
+		s = fmt.Sprintf("%s taking %s (90 %% interval %s) of %s, %s from %s", process, m.value(m.Best), m.intervalWords(), m.Of, dir, m.value(m.Baseline))
 	}
-	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
-		s += fmt.Sprintf("; the flux is then about %s times its baseline (%s–%s)", sig2(f.Ratio), sig2(f.RatioLow), sig2(f.RatioHi))
+	if fw := m.fluxWords(); fw != "" {
+		s += fmt.Sprintf("; %s (90 %% interval %s to %s)", fw, changeShort(m.Flux.RatioLow), changeShort(m.Flux.RatioHi))
 	}
 	return s
 }
 
 // prose is the form for running text, after the hypothesis's name: "about
-// 62 % of the NH4+ outflow (90 % interval 45–80 %) instead of 21 %, the
-// flux about 2.4 times its baseline".
+// 62 % of the NH4+ outflow instead of 21 % (90 % interval 45–80 %), the
+// flux about 2.4 times as high as at baseline".
 func (m magnitudeWords) prose() string {
 	var s string
 	switch {
 	case m.Kind == "input" && m.Baseline > 0:
-		s = fmt.Sprintf("about %s (90 %% interval %s) instead of %s", m.value(m.Best), m.interval(), m.value(m.Baseline))
+		s = fmt.Sprintf("about %s instead of %s (90 %% interval %s)", m.value(m.Best), m.value(m.Baseline), m.intervalWords())
 	case m.Kind == "input":
-		s = fmt.Sprintf("about %s (90 %% interval %s)", m.value(m.Best), m.interval())
+		s = fmt.Sprintf("about %s (90 %% interval %s)", m.value(m.Best), m.intervalWords())
 	default:
-		s = fmt.Sprintf("about %s of %s (90 %% interval %s) instead of %s", m.value(m.Best), m.Of, m.interval(), m.value(m.Baseline))
+		s = fmt.Sprintf("about %s of %s instead of %s (90 %% interval %s)", m.value(m.Best), m.Of, m.value(m.Baseline), m.intervalWords())
 	}
-	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
-		s += fmt.Sprintf(", the flux about %s times its baseline", sig2(f.Ratio))
+	if fw := m.fluxWords(); fw != "" {
+		s += ", with " + fw
 	}
 	return s
 }

@@ -138,3 +138,22 @@ func finite(v float64) *float64 {
 	}
 	return &v
 }
+
+// percent prints a fraction as a whole percentage: 0.648 → "65 %"; below
+// 1 % it keeps one significant digit ("0.4 %").
+func percent(f float64) string {
+	p := 100 * math.Abs(f)
+	if p < 1 {
+		return strconv.FormatFloat(p, 'g', 1, 64) + " %"
+	}
+	return strconv.FormatFloat(math.Round(p), 'f', 0, 64) + " %"
+}
+
+// count writes a whole number with its noun in the right number: "1 bit",
+// "0.64 bits", "3 further candidates".
+func count(n float64, text, singular, plural string) string {
+	if n == 1 {
+		return text + " " + singular
+	}
+	return text + " " + plural
+}

@@ -14,28 +14,92 @@ import (
 	"nlens/rank/study"
 )
 
-// This file turns numbers of a rank.Result into words for the e-mail text
-// and the Markdown report. It decides wording only; every number comes
-// from the result.
+// This file decides every word the reports choose from numbers: how
+// clear a shift is, how well an explanation fits, how large a change is in
+// plain words, plurals, articles and the names of observables and
+// hypotheses. Every format (e-mail, Markdown summary and discussion,
+// terminal table notes) takes its words from here; number formats are in
+// numbers.go.
 
-// clearSE is how many standard errors a shift must reach to be called a
-// change in words; within it the text says "about the same". Two standard
-// errors is the usual informal threshold of the trade (common practice).
-const clearSE = 2
+// The one rule for how clearly an observed shift stands out, by |shift|/SE
+// (z): below detectableZ it is within noise, from detectableZ to clearZ
+// small but detectable, from clearZ on clear. Two standard errors is the
+// usual informal threshold of the trade for "detectable" and three for a
+// difference nobody would argue with (common practice).
+const (
+	detectableZ = 2
+	clearZ      = 3
+)
+
+// strength is how clearly a shift stands out from its standard error.
+type strength int
+
+const (
+	withinNoise strength = iota
+	smallDetectable
+	clearShift
+)
+
+// shiftStrength applies the rule to a shift and its standard error; a
+// shift without a positive SE counts as clear when it is not zero.
+func shiftStrength(shift, se float64) strength {
+	z := math.Inf(1)
+	if se > 0 {
+		z = math.Abs(shift) / se
+	}
+	switch {
+	case shift == 0 || z < detectableZ:
+		return withinNoise
+	case z < clearZ:
+		return smallDetectable
+	}
+	return clearShift
+}
+
+// The fit rule, by the posterior-predictive p of an explanation: below
+// noFitP it fails (the engine's own no-fit threshold, DESIGN §5), below
+// poorFitP it reproduces the data poorly (the usual 5 % level, common
+// practice), otherwise adequately.
+const (
+	noFitP   = 0.01
+	poorFitP = 0.05
+)
+
+// fitQuality is how well an explanation reproduces the observed shifts.
+type fitQuality int
+
+const (
+	fitFails fitQuality = iota
+	fitPoor
+	fitAdequate
+)
+
+func fitOf(p float64) fitQuality {
+	switch {
+	case p < noFitP:
+		return fitFails
+	case p < poorFitP:
+		return fitPoor
+	}
+	return fitAdequate
+}
 
 // notable is the posterior below which an explanation is not worth naming
 // in prose (it stays in the tables and the JSON).
 const notable = 0.05
 
-// obsName names an observable in prose: "foliar δ15N", "the nitrate pool".
+// obsName names an observable in prose: "foliar δ15N", "the soil nitrate
+// pool".
 func obsName(o string) string {
 	switch o {
 	case "foliage":
 		return "foliar δ15N"
-	case "roots":
+	case "roots", "wood-roots":
 		return "root δ15N"
 	case "litter":
 		return "litter δ15N"
+	case "forest-floor":
+		return "forest-floor δ15N"
 	case "soil":
 		return "bulk-soil δ15N"
 	case "soil-ammonium":
@@ -48,14 +112,22 @@ func obsName(o string) string {
 		return "fungal δ15N"
 	case "n2o":
 		return "δ15N of emitted N2O"
+	case "n2o-sp":
+		return "the N2O site preference"
 	case "nitrate-d18o":
 		return "nitrate δ18O"
 	case "ecosystem":
 		return "whole-ecosystem δ15N"
+	case "foliage-n":
+		return "foliar N concentration"
+	case "net:mineralization":
+		return "net N mineralization"
+	case "net:nitrification":
+		return "net nitrification"
 	}
 	switch {
 	case strings.HasPrefix(o, "pool:"):
-		return "the " + strings.TrimPrefix(o, "pool:") + " pool"
+		return "the soil " + strings.TrimPrefix(o, "pool:") + " pool"
 	case strings.HasPrefix(o, "flux:"):
 		return "the " + strings.TrimPrefix(o, "flux:") + " flux"
 	}
@@ -76,56 +148,146 @@ func obsShort(o string) string {
 	return o + " δ15N"
 }
 
-// shiftClause describes one observed shift: "foliar δ15N was 1.5 ‰ higher
-// (standard error 0.5 ‰)". first adds the gloss of "standard error".
+// changeWords says how a ratio (treatment/control, new/baseline) compares
+// with 1 in plain words: "about 65 % higher", "about 2.4 times as high",
+// "about 85 % lower", "about the same".
+func changeWords(ratio float64) string {
+	switch {
+	case !(ratio > 0) || math.IsInf(ratio, 0):
+		return "changed by an undefined factor"
+	case ratio >= 2:
+		return "about " + sig2(ratio) + " times as high"
+	case ratio >= 1.05:
+		return "about " + percent(ratio-1) + " higher"
+	case ratio <= 1/1.05:
+		return "about " + percent(1-ratio) + " lower"
+	}
+	return "about the same"
+}
+
+// changeShort is changeWords for a table cell: "+65 %", "−85 %", "2.4-fold".
+func changeShort(ratio float64) string {
+	switch {
+	case !(ratio > 0) || math.IsInf(ratio, 0):
+		return "n/a"
+	case ratio >= 2:
+		return sig2(ratio) + "-fold"
+	case ratio >= 1:
+		return "+" + percent(ratio-1)
+	}
+	return "−" + percent(1-ratio)
+}
+
+// shiftClause describes one observed shift that stands out from noise:
+// "foliar δ15N was 3.1 ‰ higher (standard error 0.5 ‰)", "the
+// mineralization flux was about 65 % higher, small but detectable (ln
+// ratio +0.50, SE 0.25)". first spells out "standard error".
 func shiftClause(o study.Observed, first bool) string {
 	name := obsName(o.Observable)
-	se := "standard error "
-	if !first {
-		se = "SE "
+	se := "SE"
+	if first {
+		se = "standard error"
+	}
+	small := ""
+	if shiftStrength(o.Shift, o.SE) == smallDetectable {
+		small = ", small but detectable"
 	}
 	if o.LogRatio {
-		ratio := math.Exp(o.Shift)
-		if math.Abs(o.Shift) < clearSE*o.SE {
-			return fmt.Sprintf("%s was about the same size (ln ratio %s ± %s)", name, plusSigned(o.Shift, 2), signed(o.SE, 2))
-		}
-		return fmt.Sprintf("%s was %s (ln ratio %s, %s%s)", name, timesPhrase(ratio), plusSigned(o.Shift, 2), se, signed(o.SE, 2))
-	}
-	if math.Abs(o.Shift) < clearSE*o.SE {
-		return fmt.Sprintf("%s was about the same (%s ± %s ‰)", name, plusSigned(o.Shift, 1), signed(o.SE, 1))
+		return fmt.Sprintf("%s was %s%s (ln ratio %s, %s %s)", name, changeWords(math.Exp(o.Shift)), small, plusSigned(o.Shift, 2), se, signed(o.SE, 2))
 	}
 	dir := "higher"
 	if o.Shift < 0 {
 		dir = "lower"
 	}
-	return fmt.Sprintf("%s was %s ‰ %s (%s%s ‰)", name, signed(math.Abs(o.Shift), 1), dir, se, signed(o.SE, 1))
+	return fmt.Sprintf("%s was %s ‰ %s%s (%s %s ‰)", name, signed(math.Abs(o.Shift), 1), dir, small, se, signed(o.SE, 1))
 }
 
-// timesPhrase says how a ratio compares with 1: "about 3.0 times as large",
-// "about half as large".
-func timesPhrase(ratio float64) string {
-	switch {
-	case ratio >= 1.15:
-		return "about " + sig2(ratio) + " times as large"
-	case ratio <= 1/1.15:
-		return fmt.Sprintf("about %s %% smaller", strconv.Itoa(int(math.Round(100*(1-ratio)))))
+// noiseClause names the shifts that stay within noise: "fungal and
+// bulk-soil δ15N did not differ beyond noise".
+func noiseClause(obs []study.Observed) string {
+	if len(obs) == 0 {
+		return ""
 	}
-	return "about the same size"
+	var names []string
+	allDelta := true
+	for _, o := range obs {
+		names = append(names, obsName(o.Observable))
+		allDelta = allDelta && strings.HasSuffix(obsName(o.Observable), " δ15N")
+	}
+	if allDelta && len(names) > 1 {
+		for i := range names {
+			names[i] = strings.TrimSuffix(names[i], " δ15N")
+		}
+		names[len(names)-1] += " δ15N"
+	}
+	return joinAnd(names) + " did not differ beyond noise"
 }
 
-// patternSentence is the observed pattern of a comparison in one sentence.
+// patternSentence is the observed pattern of a comparison in one
+// sentence, with the known treatment: "In “fertilized vs control”
+// (ammonium nitrate fertilizer at 60 kg N/ha per year, sampled twelve
+// years after it began), foliar δ15N was 3.1 ‰ higher (standard error
+// 0.5 ‰), while fungal and bulk-soil δ15N did not differ beyond noise."
 func patternSentence(c rank.ComparisonResult) string {
 	var clauses []string
-	for i, o := range orderedObserved(c.Observed) {
-		clauses = append(clauses, shiftClause(o, i == 0))
+	var noise []study.Observed
+	for _, o := range orderedObserved(c.Observed) {
+		if shiftStrength(o.Shift, o.SE) == withinNoise {
+			noise = append(noise, o)
+			continue
+		}
+		clauses = append(clauses, shiftClause(o, len(clauses) == 0))
 	}
 	lead := "In " + quoteName(c.Name)
-	if c.Years != nil {
-		lead += ", " + yearsWords(*c.Years) + " after the treatment began"
-	} else {
-		lead += " (a long-standing contrast)"
+	var ctx []string
+	if tw := treatmentWords(c.Treatment); tw != "" {
+		ctx = append(ctx, tw)
 	}
-	return lead + ", " + joinAnd(clauses) + "."
+	switch {
+	case c.Years != nil && len(ctx) > 0:
+		ctx = append(ctx, "sampled "+yearsWords(*c.Years)+" after it began")
+	case c.Years != nil:
+		ctx = append(ctx, "sampled "+yearsWords(*c.Years)+" after the treatment began")
+	default:
+		ctx = append(ctx, "a long-standing contrast")
+	}
+	lead += " (" + strings.Join(ctx, ", ") + ")"
+	switch {
+	case len(clauses) == 0:
+		return lead + ", " + noiseClause(noise) + "."
+	case len(noise) == 0:
+		return lead + ", " + joinAnd(clauses) + "."
+	}
+	return lead + ", " + joinAnd(clauses) + ", while " + noiseClause(noise) + "."
+}
+
+// treatmentWords names the known treatment of a comparison: "ammonium
+// nitrate fertilizer at 60 kg N/ha per year", "clear-cut harvest", "fire
+// (moderate severity)"; "" when nothing was declared.
+func treatmentWords(t rank.Treatment) string {
+	var parts []string
+	for _, a := range t.Additions {
+		s := cutParen(a.Label)
+		if s == "" {
+			s = a.Source
+		}
+		s += " at " + trimFloat(a.RateKgPerHaYr) + " " + rateText
+		if a.DurationYears > 0 {
+			s += " for " + yearsWords(a.DurationYears)
+		}
+		parts = append(parts, s)
+	}
+	for _, m := range t.Management {
+		s := m.Label
+		if s == "" {
+			s = m.Tag
+		}
+		if t.Severity != "" && m.Tag == "burned" {
+			s += " (" + t.Severity + " severity)"
+		}
+		parts = append(parts, s)
+	}
+	return joinAnd(parts)
 }
 
 // orderedObserved puts clear shifts first, largest relative to their SE,
@@ -145,16 +307,15 @@ func zScore(o study.Observed) float64 {
 	return math.Abs(o.Shift) / o.SE
 }
 
-// yearsWords writes a time in years as words for small whole numbers.
+// yearsWords writes a time in years: words for whole numbers up to
+// twelve ("one year", "twelve years"), digits otherwise ("2.5 years",
+// "20 years").
 func yearsWords(y float64) string {
-	words := []string{"", "one year", "two years", "three years", "four years", "five years", "six years", "seven years", "eight years", "nine years", "ten years"}
+	words := []string{"", "one", "two", "three", "four", "five", "six", "seven", "eight", "nine", "ten", "eleven", "twelve"}
 	if y == math.Trunc(y) && y >= 1 && int(y) < len(words) {
-		return words[int(y)]
+		return count(y, words[int(y)], "year", "years")
 	}
-	if y == 1 {
-		return "one year"
-	}
-	return strconv.FormatFloat(y, 'g', 3, 64) + " years"
+	return count(y, strconv.FormatFloat(y, 'g', 3, 64), "year", "years")
 }
 
 // quoteName puts a comparison's name in typographic quotes.
@@ -269,6 +430,20 @@ func (n namer) sized(h rank.Hypothesis) string {
 	return strings.Join(parts, "; together with ")
 }
 
+// sizes words each part's magnitude for running text: "about 13 % of the
+// plant's N supply instead of 73 % (90 % interval at most 53 %)"; the
+// parts of a pair are named.
+func (n namer) sizes(h rank.Hypothesis) string {
+	if len(h.Magnitudes) == 1 {
+		return magnitudeWords{h.Magnitudes[0]}.prose()
+	}
+	var parts []string
+	for _, m := range h.Magnitudes {
+		parts = append(parts, n.part(m)+", "+magnitudeWords{m}.prose())
+	}
+	return strings.Join(parts, "; ")
+}
+
 // Plain-text and Markdown forms of kg N/ha/yr.
 const (
 	rateText     = "kg N/ha per year"
@@ -298,7 +473,7 @@ func leadWords(top, second float64) string {
 	case top >= 3*second:
 		return "clearly ahead"
 	case top >= 1.5*second:
-		return "ahead, but not decisively"
+		return "ahead but not decisively"
 	}
 	return "only marginally ahead"
 }
