@@ -74,9 +74,17 @@ func (d *drafter) interpretation(c rank.ComparisonResult, named bool) string {
 		fmt.Fprintf(&b, "%s%s %s not reproduced by any of the candidate changes in N cycling considered here: the closest, %s, fails the posterior-predictive check (%s). This suggests that a process not represented in the model, a site that departs from the `%s` template, or a problem in the data is involved, and the ranking should not be read as support for any candidate.",
 			intro, pattern.text, pattern.verb("is", "are"), d.n.name(top), pValue(top.Fit.P), d.site)
 		return capitalize(b.String())
-	case top.ID == rank.NoneID:
-		fmt.Fprintf(&b, "%s%s %s small relative to their uncertainty, and the most probable interpretation is that N cycling did not change (posterior probability %s).",
+	case top.ID == rank.NoneID && !c.Treatment.Empty():
+		fmt.Fprintf(&b, "%s%s %s most simply explained by the declared treatment itself, without a change in N-cycle processes beyond it (posterior probability %s).",
 			intro, pattern.text, pattern.verb("is", "are"), fmtProb(top.Posterior))
+		return capitalize(b.String())
+	case top.ID == rank.NoneID && !anyStandsOut(c.Observed):
+		fmt.Fprintf(&b, "%s%s %s within the uncertainty of the data, and the most probable interpretation is that N cycling did not change (posterior probability %s).",
+			intro, pattern.text, pattern.verb("is", "are"), fmtProb(top.Posterior))
+		return capitalize(b.String())
+	case top.ID == rank.NoneID:
+		fmt.Fprintf(&b, "%sAlthough %s %s, no candidate change in N cycling reproduces %s better than no change, given the uncertainty of the data and the model's structural error (posterior probability of no change %s).",
+			intro, pattern.text, pattern.verb("stands out", "stand out"), pattern.verb("it", "them"), fmtProb(top.Posterior))
 		return capitalize(b.String())
 	}
 	fmt.Fprintf(&b, "%s%s %s most consistent with %s; this explanation carries a posterior probability of %s.",
@@ -98,7 +106,7 @@ func (d *drafter) openQuestions(c rank.ComparisonResult) string {
 	if !c.NoFit && len(hs) > 1 {
 		var good, poor []rank.Hypothesis
 		for _, h := range hs[1:] {
-			if h.Fit.P >= adequateFit {
+			if fitOf(h.Fit.P) == fitAdequate {
 				good = append(good, h)
 			} else {
 				poor = append(poor, h)
@@ -136,6 +144,9 @@ func (d *drafter) openQuestions(c rank.ComparisonResult) string {
 				capitalize(d.n.name(h)), fmtProb(h.Posterior), pValue(h.Fit.P)))
 		}
 		for _, h := range good {
+			if h.ID == rank.NoneID {
+				continue
+			}
 			if m := d.mechanism(h, "Under the alternative involving "+d.n.short(h)+", "); m != "" {
 				sentences = append(sentences, m)
 				break
@@ -170,7 +181,7 @@ func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) stri
 		ids = append(ids, h.ID)
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "Measuring %s would probably be the most effective way to discriminate among these explanations (expected information gain %s bits)", m.Label, sig2(m.Bits))
+	fmt.Fprintf(&b, "Measuring %s would probably be the most effective way to discriminate among these explanations (expected information gain %s)", m.Label, bits(m.Bits))
 	if a, bb, z := separation(m, ids); a != "" && z > 0 {
 		ha, _ := hypothesisByID(c, a)
 		hb, _ := hypothesisByID(c, bb)
@@ -183,7 +194,7 @@ func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) stri
 	if len(c.Measurements) > 1 {
 		m2 := c.Measurements[1]
 		if m2.Bits >= minUsefulBits && m2.Cost < m.Cost {
-			fmt.Fprintf(&b, " %s, which is cheaper, would add about %s bits", capitalize(m2.Label), sig2(m2.Bits))
+			fmt.Fprintf(&b, " %s, which is cheaper, would add about %s", capitalize(m2.Label), bits(m2.Bits))
 			if r := d.measurementRefs(m2.ID); r != "" {
 				b.WriteString(" " + r)
 			}
@@ -193,17 +204,10 @@ func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) stri
 	return b.String()
 }
 
-// adequateFit is the posterior-predictive p below which the discussion
-// does not call an alternative's fit comparable (the usual 5 % level,
-// common practice; the engine's own no-fit threshold is stricter).
-const adequateFit = 0.05
-
-// under is "the nitrification scenario", "no change".
+// under names a hypothesis after "under": "more nitrification", "a
+// change in uptake form", "no change beyond the treatment".
 func (d *drafter) under(h rank.Hypothesis) string {
-	if h.ID == rank.NoneID {
-		return "no change"
-	}
-	return "the " + d.n.short(h) + " scenario"
+	return d.n.short(h)
 }
 
 func (d *drafter) measurementRefs(id string) string {
@@ -306,7 +310,7 @@ func (d *drafter) academic(h rank.Hypothesis) string {
 }
 
 func (d *drafter) academicPart(m rank.Magnitude) string {
-	return d.n.part(m) + " (" + magnitudeWords{m}.prose() + ")"
+	return d.n.part(m) + ", " + magnitudeWords{m}.prose()
 }
 
 // patternText is a comparison's observed pattern as a noun phrase, and

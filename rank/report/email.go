@@ -434,7 +434,7 @@ func nextParagraph(c rank.ComparisonResult, n namer, g *glosses, full bool, lead
 		fmt.Fprintf(&b, "%s, expect %s; %s, %s. ",
 			capitalize(n.ifClause(ha, true)), expectation(m, m.Predicted[a]), n.ifClause(hb, false), expectation(m, m.Predicted[bb]))
 	}
-	fmt.Fprintf(&b, "On average it should give %s bits about which explanation holds%s.", sig2(m.Bits), g.bitsGloss())
+	fmt.Fprintf(&b, "On average it should give %s about which explanation holds%s.", bits(m.Bits), g.bitsGloss())
 	if len(c.Measurements) > 1 && full {
 		m2 := c.Measurements[1]
 		if m2.Bits >= minUsefulBits {
@@ -442,7 +442,7 @@ func nextParagraph(c rank.ComparisonResult, n namer, g *glosses, full bool, lead
 			if m2.Cost < m.Cost {
 				kind = "A cheaper second option is"
 			}
-			fmt.Fprintf(&b, " %s %s (%s cost, %s bits)", kind, m2.Label, costName(m2.Cost), sig2(m2.Bits))
+			fmt.Fprintf(&b, " %s %s (%s cost, %s)", kind, m2.Label, costName(m2.Cost), bits(m2.Bits))
 			if a, bb, z := separation(m2, ids); a != "" && z >= 1 {
 				ha, _ := hypothesisByID(c, a)
 				hb, _ := hypothesisByID(c, bb)

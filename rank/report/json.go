@@ -14,8 +14,13 @@ import (
 
 // ExplainJSON is the JSON contract of `nlens explain` (DESIGN §7).
 type ExplainJSON struct {
-	Version     string           `json:"version"`
-	Seed        uint64           `json:"seed"`
+	Version string `json:"version"`
+	Seed    uint64 `json:"seed"`
+	// NoFit states, before any ranking, each comparison or series where no
+	// candidate fits (empty when every one has a fitting explanation).
+	NoFit []string `json:"no_fit"`
+	// Cautions every report states.
+	Cautions    []string         `json:"cautions"`
 	Comparisons []ComparisonJSON `json:"comparisons"`
 	// Series holds the joint ranking of each series (DESIGN §6).
 	Series []SeriesJSON `json:"series"`
@@ -24,25 +29,31 @@ type ExplainJSON struct {
 // SeriesJSON is the joint explanation of one series; its hypotheses'
 // predicted values are keyed "comparison/observable".
 type SeriesJSON struct {
-	Name         string            `json:"name"`
-	Kind         string            `json:"kind"`
-	Comparisons  []string          `json:"comparisons"`
-	Hypotheses   []HypothesisJSON  `json:"hypotheses"`
-	Measurements []MeasurementJSON `json:"measurements"`
-	Warnings     []string          `json:"warnings"`
+	Name string `json:"name"`
+	// NoCandidateFits is set when the best joint explanation fails its fit
+	// check; the ranking below is then not evidence for any candidate.
+	NoCandidateFits bool              `json:"no_candidate_fits"`
+	Kind            string            `json:"kind"`
+	Comparisons     []string          `json:"comparisons"`
+	Hypotheses      []HypothesisJSON  `json:"hypotheses"`
+	Measurements    []MeasurementJSON `json:"measurements"`
+	Warnings        []string          `json:"warnings"`
 }
 
 // ComparisonJSON is one comparison's result.
 type ComparisonJSON struct {
-	Name         string               `json:"name"`
-	Years        *float64             `json:"years"`
-	Series       *string              `json:"series"`
-	Draws        int                  `json:"draws"`
-	DrawsAlone   int                  `json:"treatment_alone_draws"`
-	Observed     map[string]ShiftJSON `json:"observed"`
-	Treatment    TreatmentJSON        `json:"treatment"`
-	Hypotheses   []HypothesisJSON     `json:"hypotheses"`
-	Measurements []MeasurementJSON    `json:"measurements"`
+	Name string `json:"name"`
+	// NoCandidateFits is set when the best explanation fails its fit
+	// check; the ranking below is then not evidence for any candidate.
+	NoCandidateFits bool                 `json:"no_candidate_fits"`
+	Years           *float64             `json:"years"`
+	Series          *string              `json:"series"`
+	Draws           int                  `json:"draws"`
+	DrawsAlone      int                  `json:"treatment_alone_draws"`
+	Observed        map[string]ShiftJSON `json:"observed"`
+	Treatment       TreatmentJSON        `json:"treatment"`
+	Hypotheses      []HypothesisJSON     `json:"hypotheses"`
+	Measurements    []MeasurementJSON    `json:"measurements"`
 	// RuledOut lists undeclared sources the site context rules out.
 	RuledOut []string `json:"ruled_out_sources"`
 	// FittedSite is the site model fitted to the control (null when not
@@ -174,9 +185,9 @@ func round6(v float64) float64 {
 
 // ToJSON converts a result to the JSON contract.
 func ToJSON(r *rank.Result) ExplainJSON {
-	out := ExplainJSON{Version: r.Version, Seed: r.Seed, Comparisons: []ComparisonJSON{}, Series: []SeriesJSON{}}
+	out := ExplainJSON{Version: r.Version, Seed: r.Seed, NoFit: append([]string{}, noFitStatements(r)...), Cautions: shortCautions, Comparisons: []ComparisonJSON{}, Series: []SeriesJSON{}}
 	for _, c := range r.Comparisons {
-		cj := ComparisonJSON{Name: c.Name, Observed: map[string]ShiftJSON{}, Hypotheses: []HypothesisJSON{}, Warnings: append([]string{}, c.Warnings...)}
+		cj := ComparisonJSON{Name: c.Name, NoCandidateFits: c.NoFit, Observed: map[string]ShiftJSON{}, Hypotheses: []HypothesisJSON{}, Warnings: append([]string{}, c.Warnings...)}
 		for _, o := range c.Observed {
 			cj.Observed[o.Observable] = ShiftJSON{round6(o.Shift), round6(o.SE)}
 		}
@@ -194,7 +205,7 @@ func ToJSON(r *rank.Result) ExplainJSON {
 		out.Comparisons = append(out.Comparisons, cj)
 	}
 	for _, sr := range r.Series {
-		sj := SeriesJSON{Name: sr.Name, Kind: sr.Kind, Comparisons: sr.Comparisons, Hypotheses: []HypothesisJSON{}, Measurements: measurementsJSON(sr.Measurements), Warnings: append([]string{}, sr.Warnings...)}
+		sj := SeriesJSON{Name: sr.Name, NoCandidateFits: sr.NoFit, Kind: sr.Kind, Comparisons: sr.Comparisons, Hypotheses: []HypothesisJSON{}, Measurements: measurementsJSON(sr.Measurements), Warnings: append([]string{}, sr.Warnings...)}
 		for _, h := range sr.Hypotheses {
 			sj.Hypotheses = append(sj.Hypotheses, hypothesisJSON(h))
 		}

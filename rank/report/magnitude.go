@@ -65,14 +65,11 @@ func (m magnitudeWords) fluxWords() string {
 	if f == nil || !f.HasRatio || m.Kind == "input" {
 		return ""
 	}
-	if cw := changeWords(f.Ratio); cw != "about the same" {
-		return "that flux " + cw + " than at baseline"
-	}
-	return "that flux about the same as at baseline"
+	return "that flux " + changeAgainst(f.Ratio, "at baseline")
 }
 
-// short is the compact form for tables: "62 % (45–80 %), was 21 %;
-// flux ×2.4".
+// short is the compact form for tables: "62% (45–80%), was 21%;
+// flux 2.4-fold".
 func (m magnitudeWords) short() string {
 	var b strings.Builder
 	b.WriteString(m.value(m.Best))
@@ -83,7 +80,9 @@ func (m magnitudeWords) short() string {
 	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
 		b.WriteString("; flux " + changeShort(f.Ratio))
 	}
-	return b.String()
+	// Numbers keep their signs and units in one word, so a wrapped table
+	// cell never breaks "73 %" or "≤ 53 %" across lines.
+	return strings.NewReplacer(" %", "%", "≤ ", "≤", "≥ ", "≥", " kg N/ha/yr", "\u00a0kg\u00a0N/ha/yr").Replace(b.String())
 }
 
 // sentence is the full form: "nitrification takes 62 % (90 % interval

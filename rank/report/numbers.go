@@ -157,3 +157,12 @@ func count(n float64, text, singular, plural string) string {
 	}
 	return text + " " + plural
 }
+
+// bits writes an information gain with its unit: "0.62 bits", "1 bit".
+func bits(b float64) string {
+	s := sig2(b)
+	if s == "1" {
+		return "1 bit"
+	}
+	return s + " bits"
+}

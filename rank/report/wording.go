@@ -12,6 +12,7 @@ import (
 	"nlens/knowledge"
 	"nlens/rank"
 	"nlens/rank/study"
+	"nlens/rules"
 )
 
 // This file decides every word the reports choose from numbers: how
@@ -163,6 +164,21 @@ func changeWords(ratio float64) string {
 		return "about " + percent(1-ratio) + " lower"
 	}
 	return "about the same"
+}
+
+// changeAgainst is changeWords with what the ratio compares with: "about
+// 65 % higher than at baseline", "about 17 times as high as at baseline".
+func changeAgainst(ratio float64, than string) string {
+	cw := changeWords(ratio)
+	switch {
+	case strings.HasSuffix(cw, " as high"):
+		return cw + " as " + than
+	case cw == "about the same":
+		return cw + " as " + than
+	case strings.HasSuffix(cw, "higher"), strings.HasSuffix(cw, "lower"):
+		return cw + " than " + than
+	}
+	return cw
 }
 
 // changeShort is changeWords for a table cell: "+65 %", "−85 %", "2.4-fold".
@@ -601,4 +617,47 @@ func capitalize(s string) string {
 		return strings.ToUpper(string(r)) + s[i+utf8.RuneLen(r):]
 	}
 	return s
+}
+
+// posteriorCell is a hypothesis's posterior in a table: the number, or,
+// for a candidate whose predictions stay within noise of no response
+// beyond the treatment, where its probability was counted ("with #2").
+func posteriorCell(c rank.ComparisonResult, h rank.Hypothesis) string {
+	if !h.Indistinguishable {
+		return fmtProb(h.Posterior)
+	}
+	for i, o := range c.Hypotheses {
+		if o.ID == rank.NoneID {
+			return "with #" + strconv.Itoa(i+1)
+		}
+	}
+	return "with no change"
+}
+
+// uniqueAdjustments drops repeated context rules (a pair carries the rules
+// of both its parts, often the same ones).
+func uniqueAdjustments(as []rules.Adjustment) []rules.Adjustment {
+	var out []rules.Adjustment
+	seen := map[string]bool{}
+	for _, a := range as {
+		if !seen[a.Rule] {
+			seen[a.Rule] = true
+			out = append(out, a)
+		}
+	}
+	return out
+}
+
+// fromMemory reports whether a reference has fields not checked against
+// the publication, by its status in references.yaml.
+func fromMemory(r knowledge.Reference) bool {
+	return strings.Contains(strings.ToLower(r.Status), "from memory")
+}
+
+// shortCautions are the cautions every format states, in their shortest
+// form (the Markdown report gives them in full).
+var shortCautions = []string{
+	"δ15N evidence is indicative, not proof.",
+	"The ranking depends on the assumed isotope effects and on the site model.",
+	"Decisions on management or regulation should rest on several lines of evidence, local regulations and licensed professionals.",
 }
