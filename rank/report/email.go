@@ -43,33 +43,55 @@ func Text(w io.Writer, r *rank.Result, kb *knowledge.Base) error {
 	return ew.err
 }
 
-// emailParagraphs composes the e-mail within its word limit.
+// emailParagraphs composes the e-mail within its word limit: every
+// paragraph at full detail if that fits, else at less detail, and at the
+// least detail as many paragraphs as fit, the rest left to the report.
 func emailParagraphs(r *rank.Result, kb *knowledge.Base) []string {
 	units := summaryUnits(r)
 	limit := emailMaxMany
-	if len(units) == 1 {
+	if len(units) == 1 && units[0].series == "" {
 		limit = emailMaxOne
 	}
-	compose := func(compact bool, keep int) []string {
+	compose := func(level detail, keep int) []string {
 		paras := []string{"Hi,"}
 		paras = append(paras, noFitStatements(r)...)
 		paras = append(paras, emailOpening(r))
 		g := glosses{}
 		for _, u := range units[:keep] {
-			paras = append(paras, u.paragraph(kb, &g, compact || len(units) > 1 && u.index > 0))
+			paras = append(paras, u.paragraph(kb, &g, level))
 		}
 		paras = append(paras, emailClosing(r, len(units)-keep))
 		return append(paras, "Best,")
 	}
-	paras := compose(false, len(units))
-	if words(paras) > limit {
-		paras = compose(true, len(units))
+	var paras []string
+	for level := fullDetail; level >= leastDetail; level-- {
+		if paras = compose(level, len(units)); words(paras) <= limit {
+			return paras
+		}
 	}
 	for keep := len(units) - 1; words(paras) > limit && keep >= 1; keep-- {
-		paras = compose(true, keep)
+		paras = compose(leastDetail, keep)
 	}
 	return paras
 }
+
+// detail is how much a summary paragraph says.
+type detail int
+
+const (
+	// leastDetail: the pattern (of a series, its first comparison), the
+	// leading explanation and one alternative.
+	leastDetail detail = iota
+	// namedDetail adds the series' other comparisons and names the next
+	// measurement.
+	namedDetail
+	// sizedDetail adds the size of the leading explanation and a second
+	// alternative.
+	sizedDetail
+	// fullDetail adds what the next measurement would show under the two
+	// explanations it separates best.
+	fullDetail
+)
 
 // words counts the words of some paragraphs as a reader would: runs of
 // letters or digits separated by spaces ("±" and "‰" alone do not count).
@@ -184,10 +206,10 @@ func (u summaryUnit) noFitStatement() string {
 		u.what(), pValue(c.Hypotheses[0].Fit.P))
 }
 
-// paragraph is the unit's summary: the observed pattern with the known
-// treatment, the leading explanations and the next measurement (left out
-// when compact).
-func (u summaryUnit) paragraph(kb *knowledge.Base, g *glosses, compact bool) string {
+// paragraph is the unit's summary at a level of detail: the observed
+// pattern with the known treatment, the leading explanations and the next
+// measurement.
+func (u summaryUnit) paragraph(kb *knowledge.Base, g *glosses, level detail) string {
 	var parts []string
 	if u.series != "" {
 		var names []string
@@ -197,15 +219,15 @@ func (u summaryUnit) paragraph(kb *knowledge.Base, g *glosses, compact bool) str
 		parts = append(parts, fmt.Sprintf("The %s comparisons of the series %s (%s) were explained jointly, with one response for all of them.", numberWord(len(u.comparisons)), quoteName(u.series), joinAnd(names)))
 	}
 	for i, c := range u.comparisons {
-		if compact && i > 0 {
+		if level == leastDetail && i > 0 {
 			break
 		}
 		parts = append(parts, patternSentence(c))
 	}
 	n := newNamer(kb, u.ranked)
-	parts = append(parts, leadSentences(u.ranked, n, g, compact))
-	if !compact && !u.ranked.NoFit {
-		if s := nextSentence(u.ranked, n); s != "" {
+	parts = append(parts, leadSentences(u.ranked, n, g, level))
+	if level >= namedDetail && !u.ranked.NoFit {
+		if s := nextSentence(u.ranked, n, level == fullDetail); s != "" {
 			parts = append(parts, s)
 		}
 	}
@@ -214,7 +236,7 @@ func (u summaryUnit) paragraph(kb *knowledge.Base, g *glosses, compact bool) str
 
 // leadSentences name the leading explanations with posterior and size, or
 // say that none fits.
-func leadSentences(c rank.ComparisonResult, n namer, g *glosses, compact bool) string {
+func leadSentences(c rank.ComparisonResult, n namer, g *glosses, level detail) string {
 	if len(c.Hypotheses) == 0 {
 		return "nlens found no candidate to score here."
 	}
@@ -231,13 +253,13 @@ func leadSentences(c rank.ComparisonResult, n namer, g *glosses, compact bool) s
 		b.WriteString(noneReading(c, top, g))
 	} else {
 		fmt.Fprintf(&b, "The best-supported explanation is %s, with a posterior probability of %s%s, %s.", n.name(top), fmtProb(top.Posterior), g.posteriorGloss(), leadWords(top.Posterior, second))
-		if len(top.Magnitudes) > 0 && !compact {
+		if len(top.Magnitudes) > 0 && level >= sizedDetail {
 			b.WriteString(" In the model that means " + n.sizes(top) + ".")
 		}
 	}
-	max := 3
-	if compact {
-		max = 2
+	max := 2
+	if level >= sizedDetail {
+		max = 3
 	}
 	var alts []string
 	for _, h := range named(c, max)[1:] {
@@ -281,7 +303,7 @@ func anyStandsOut(obs []study.Observed) bool {
 
 // nextSentence recommends the measurement that would best separate the
 // leading explanations, with what each predicts.
-func nextSentence(c rank.ComparisonResult, n namer) string {
+func nextSentence(c rank.ComparisonResult, n namer, predictions bool) string {
 	if len(c.Measurements) == 0 || c.Measurements[0].Bits < minUsefulBits {
 		return "No measurement in the nlens catalogue would separate these explanations much; more replicates of what was already measured may help more."
 	}
@@ -291,7 +313,7 @@ func nextSentence(c rank.ComparisonResult, n namer) string {
 		lead = "To pin down its size, I would measure"
 	}
 	s := fmt.Sprintf("%s %s next (%s cost)", lead, m.Label, costName(m.Cost))
-	if a, b, z := separation(m, namedIDs(c)); a != "" && z > 0 {
+	if a, b, z := separation(m, namedIDs(c)); predictions && a != "" && z > 0 {
 		ha, _ := hypothesisByID(c, a)
 		hb, _ := hypothesisByID(c, b)
 		s += fmt.Sprintf(": %s %s, %s %s", expectation(m, m.Predicted[a]), n.ifClause(ha, false), expectation(m, m.Predicted[b]), n.ifClause(hb, false))

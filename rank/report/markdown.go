@@ -77,7 +77,7 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 	b.WriteString("## Summary\n\n")
 	g := glosses{}
 	for _, u := range summaryUnits(r) {
-		fmt.Fprintf(&b, "%s\n\n", mdEscape(u.paragraph(kb, &g, false)))
+		fmt.Fprintf(&b, "%s\n\n", mdEscape(u.paragraph(kb, &g, fullDetail)))
 	}
 
 	plan := figurePlan(r)

@@ -156,6 +156,8 @@ func changeWords(ratio float64) string {
 	switch {
 	case !(ratio > 0) || math.IsInf(ratio, 0):
 		return "changed by an undefined factor"
+	case ratio >= 2 && sig2(ratio) == "2":
+		return "about twice as high"
 	case ratio >= 2:
 		return "about " + sig2(ratio) + " times as high"
 	case ratio >= 1.05:
@@ -260,8 +262,10 @@ func patternSentence(c rank.ComparisonResult) string {
 		ctx = append(ctx, tw)
 	}
 	switch {
-	case c.Years != nil && len(ctx) > 0:
+	case c.Years != nil && len(c.Treatment.Additions) > 0:
 		ctx = append(ctx, "sampled "+yearsWords(*c.Years)+" after it began")
+	case c.Years != nil && len(ctx) > 0:
+		ctx = append(ctx, "sampled "+yearsWords(*c.Years)+" later")
 	case c.Years != nil:
 		ctx = append(ctx, "sampled "+yearsWords(*c.Years)+" after the treatment began")
 	default:
@@ -299,7 +303,7 @@ func treatmentWords(t rank.Treatment) string {
 			s = m.Tag
 		}
 		if t.Severity != "" && m.Tag == "burned" {
-			s += " (" + t.Severity + " severity)"
+			s += " of " + t.Severity + " severity"
 		}
 		parts = append(parts, s)
 	}
@@ -418,7 +422,11 @@ func (n namer) name(h rank.Hypothesis) string {
 	for _, m := range h.Magnitudes {
 		parts = append(parts, n.part(m))
 	}
-	return strings.Join(parts, " together with ")
+	s := strings.Join(parts, " together with ")
+	if h.Duration != nil {
+		s += " as a pulse"
+	}
+	return s
 }
 
 // part names one response of a hypothesis with its direction.
@@ -450,14 +458,37 @@ func (n namer) sized(h rank.Hypothesis) string {
 // plant's N supply instead of 73 % (90 % interval at most 53 %)"; the
 // parts of a pair are named.
 func (n namer) sizes(h rank.Hypothesis) string {
+	// A pulse's flux at sampling may be back at baseline, which would read
+	// as a contradiction of "more"; its size is the share while it lasts.
+	prose := func(m rank.Magnitude) string {
+		if h.Duration != nil {
+			m.Flux = nil
+		}
+		return magnitudeWords{m}.prose()
+	}
+	var s string
 	if len(h.Magnitudes) == 1 {
-		return magnitudeWords{h.Magnitudes[0]}.prose()
+		s = prose(h.Magnitudes[0])
+	} else {
+		var parts []string
+		for _, m := range h.Magnitudes {
+			parts = append(parts, n.part(m)+", "+prose(m))
+		}
+		s = strings.Join(parts, "; ")
 	}
-	var parts []string
-	for _, m := range h.Magnitudes {
-		parts = append(parts, n.part(m)+", "+magnitudeWords{m}.prose())
+	if d := h.Duration; d != nil {
+		s += fmt.Sprintf(", for about %s after the treatment (90 %% interval %s–%s years)", yearsWords(roundYears(d.Best)), trimFloat(roundYears(d.Low)), trimFloat(roundYears(d.High)))
 	}
-	return strings.Join(parts, "; ")
+	return s
+}
+
+// roundYears rounds a duration for prose: whole years from 3 on, halves
+// below.
+func roundYears(y float64) float64 {
+	if y >= 3 {
+		return math.Round(y)
+	}
+	return math.Round(2*y) / 2
 }
 
 // Plain-text and Markdown forms of kg N/ha/yr.
