@@ -119,7 +119,7 @@ func emailOpening(r *rank.Result) string {
 // emailClosing carries the cautions every report states and points to the
 // full report; left is the number of comparisons or series not summarised.
 func emailClosing(r *rank.Result, left int) string {
-	s := "Please read this as a pointer, not proof: δ15N evidence is indicative, and the ranking depends on the isotope effects nlens assumes and on the site model. Decisions on management or regulation should rest on several lines of evidence, local regulations and licensed professionals. "
+	s := "Please read this as a pointer: δ15N evidence is indicative, not proof, and the ranking depends on the isotope effects nlens assumes and on the site model. Decisions on management or regulation should rest on several lines of evidence, local regulations and licensed professionals. "
 	if left > 0 {
 		return s + fmt.Sprintf("The full report covers the other %s and has the tables, alternatives, a discussion draft and references.", count(float64(left), numberWord(left), "comparison", "comparisons"))
 	}
