@@ -79,10 +79,10 @@ func TestTextFollowsTheResult(t *testing.T) {
 	t.Parallel()
 	got := strings.Join(strings.Fields(renderText(t, multiResult())), " ")
 	for _, want := range []string{
-		"(a long-standing contrast)",                   // comparison 1 has no years
-		"the soil nitrate pool was about 3 times as high", // ln(4.5/1.5) = ln 3
-		"an undeclared input of atmospheric N deposition", // a source in a pair
-		"No candidate fits “burned vs unburned”",          // comparison 2 has NoFit
+		"(a long-standing contrast)",                            // comparison 1 has no years
+		"the soil nitrate pool was about 3 times as high",       // ln(4.5/1.5) = ln 3
+		"an undeclared input of atmospheric N deposition",       // a source in a pair
+		"No candidate fits “burned vs unburned”",                // comparison 2 has NoFit
 		"N cycling did not change: every shift is within noise", // comparison 3: none leads, z < 2
 		"sampled 1.5 years after",
 	} {
