@@ -370,10 +370,7 @@ func (d *drafter) pattern(c rank.ComparisonResult) patternText {
 	if len(smaller) > 0 {
 		parts = append(parts, "the decrease in "+joinAnd(smaller))
 	}
-	when := " under the treatment"
-	if c.Years != nil {
-		when = " " + yearsWords(*c.Years) + " after the treatment began"
-	}
+	when := " " + treatmentWhen(c)
 	if len(parts) == 0 {
 		return patternText{text: "the differences in " + joinAnd(unclear) + when, plural: true}
 	}

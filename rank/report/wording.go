@@ -281,6 +281,25 @@ func patternSentence(c rank.ComparisonResult) string {
 	return lead + ", " + joinAnd(clauses) + ", while " + noiseClause(noise) + "."
 }
 
+// treatmentWhen says when a comparison was sampled in terms of its known
+// treatment: "after twelve years of ammonium nitrate fertilizer at 60 kg
+// N/ha per year", "three years after the clear-cut harvest", "in a
+// long-standing contrast with the clear-cut harvest".
+func treatmentWhen(c rank.ComparisonResult) string {
+	tw := treatmentWords(c.Treatment)
+	switch {
+	case c.Years == nil && tw != "":
+		return "in a long-standing contrast under " + tw
+	case c.Years == nil:
+		return "in a long-standing contrast"
+	case tw == "":
+		return yearsWords(*c.Years) + " after the treatment began"
+	case len(c.Treatment.Additions) > 0:
+		return "after " + yearsWords(*c.Years) + " of " + tw
+	}
+	return yearsWords(*c.Years) + " after the " + tw
+}
+
 // treatmentWords names the known treatment of a comparison: "ammonium
 // nitrate fertilizer at 60 kg N/ha per year", "clear-cut harvest", "fire
 // (moderate severity)"; "" when nothing was declared.
