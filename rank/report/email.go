@@ -340,69 +340,6 @@ func (g *glosses) bitsGloss() string {
 	return " (expected information gain; 1 bit would settle an even two-way choice)"
 }
 
-// leadParagraph names the leading explanations with posterior and size.
-func leadParagraph(c rank.ComparisonResult, n namer, g *glosses, rateUnit string) string {
-	if len(c.Hypotheses) == 0 {
-		return "nlens found no candidate to score for this comparison."
-	}
-	top := c.Hypotheses[0]
-	if c.NoFit {
-		return fmt.Sprintf("None of the explanations nlens considers reproduces this pattern: even the closest, %s, fails the fit check (%s, the chance of a mismatch at least this large if it were right). That points to a process the model leaves out, a site unlike its template, or a problem in the data, so I would check the numbers before reading anything into the ranking.",
-			n.name(top), pValue(top.Fit.P))
-	}
-	second := 0.0
-	if len(c.Hypotheses) > 1 {
-		second = c.Hypotheses[1].Posterior
-	}
-	var b strings.Builder
-	if top.ID == rank.NoneID {
-		fmt.Fprintf(&b, "The most likely reading is that N cycling did not change and the shifts are sampling noise and natural variation: posterior probability %s%s.",
-			fmtProb(top.Posterior), g.posteriorGloss())
-	} else {
-		fmt.Fprintf(&b, "The best-supported explanation is %s, with a posterior probability of %s%s; it is %s.",
-			n.sized(top), fmtProb(top.Posterior), g.posteriorGloss(), leadWords(top.Posterior, second))
-	}
-	var alts []string
-	for _, h := range named(c, 3)[1:] {
-		alts = append(alts, fmt.Sprintf("%s (%s)", n.name(h), fmtProb(h.Posterior)))
-	}
-	switch len(alts) {
-	case 0:
-	case 1:
-		fmt.Fprintf(&b, " The only other explanation with real support is %s.", alts[0])
-	default:
-		fmt.Fprintf(&b, " Next come %s.", joinAnd(alts))
-	}
-	return b.String()
-}
-
-// ambiguityParagraph says which of the named explanations the data cannot
-// yet separate, and where they differ most.
-func ambiguityParagraph(c rank.ComparisonResult, n namer) string {
-	if c.NoFit {
-		return ""
-	}
-	hs := named(c, 3)
-	if len(hs) < 2 {
-		return "Nothing else comes close, so among the candidates nlens knows the data already single this one out."
-	}
-	var names []string
-	for _, h := range hs {
-		names = append(names, n.short(h))
-	}
-	worst, ratio := spread(c, hs)
-	if worst.Observable == "" || ratio < 1 {
-		return fmt.Sprintf("What the data cannot yet tell apart: %s predict nearly the same shift in everything measured (within one standard error of each other).", joinAnd(names))
-	}
-	lo, hi := predictedRange(worst.Observable, hs)
-	rng := fmt.Sprintf("%s to %s ‰", plusSigned(lo, 1), plusSigned(hi, 1))
-	if worst.LogRatio {
-		rng = fmt.Sprintf("ln ratio %s to %s", plusSigned(lo, 2), plusSigned(hi, 2))
-	}
-	return fmt.Sprintf("What the data cannot yet tell apart: %s. Their predictions differ most for %s (%s), but the uncertainty of the isotope effects and of the data leaves room for each.",
-		joinAnd(names), obsName(worst.Observable), rng)
-}
-
 // predictedRange is the lowest and highest predicted mean of an observable
 // over some hypotheses.
 func predictedRange(obs string, hs []rank.Hypothesis) (lo, hi float64) {
