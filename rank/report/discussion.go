@@ -17,27 +17,32 @@ import (
 // result rest on the Methods section.
 func discussion(r *rank.Result, kb *knowledge.Base, ci citer) []string {
 	d := drafter{kb: kb, ci: ci, site: r.SiteID}
-	switch n := len(r.Comparisons); {
+	units := summaryUnits(r)
+	switch n := len(units); {
 	case n == 0:
 		return []string{"The study defines no comparison, so there is nothing to discuss."}
-	case n == 1:
-		c := r.Comparisons[0]
+	case n == 1 && units[0].series == "":
+		c := units[0].ranked
 		d.n = newNamer(kb, c)
-		first := d.interpretation(c, false)
+		first := d.interpretation(units[0], false)
 		if second := d.openQuestions(c); second != "" {
 			return []string{first, second}
 		}
 		return []string{first}
 	default:
 		var out []string
-		for i, c := range r.Comparisons {
+		for i, u := range units {
 			if i == 2 && n > 3 {
-				out = append(out, d.remaining(r.Comparisons[2:]))
+				var rest []rank.ComparisonResult
+				for _, v := range units[2:] {
+					rest = append(rest, v.ranked)
+				}
+				out = append(out, d.remaining(rest))
 				break
 			}
-			d.n = newNamer(kb, c)
-			p := d.interpretation(c, true)
-			if q := d.openQuestions(c); q != "" {
+			d.n = newNamer(kb, u.ranked)
+			p := d.interpretation(u, true)
+			if q := d.openQuestions(u.ranked); q != "" {
 				p += " " + q
 			}
 			out = append(out, p)
@@ -58,10 +63,14 @@ type drafter struct {
 
 // interpretation is the leading explanation: the pattern, the candidate,
 // its size and its mechanism. named says the comparison by name.
-func (d *drafter) interpretation(c rank.ComparisonResult, named bool) string {
+func (d *drafter) interpretation(u summaryUnit, named bool) string {
+	c := u.ranked
 	var b strings.Builder
 	intro := ""
-	if named {
+	switch {
+	case u.series != "":
+		intro = "In the series " + quoteName(u.series) + ", explained jointly, "
+	case named:
 		intro = "In the " + quoteName(c.Name) + " comparison, "
 	}
 	if len(c.Hypotheses) == 0 {
@@ -69,6 +78,9 @@ func (d *drafter) interpretation(c rank.ComparisonResult, named bool) string {
 	}
 	top := c.Hypotheses[0]
 	pattern := d.pattern(c)
+	if u.series != "" {
+		pattern = seriesPattern(u)
+	}
 	switch {
 	case c.NoFit:
 		fmt.Fprintf(&b, "%s%s %s not reproduced by any of the candidate changes in N cycling considered here: the closest, %s, fails the posterior-predictive check (%s). This suggests that a process not represented in the model, a site that departs from the `%s` template, or a problem in the data is involved, and the ranking should not be read as support for any candidate.",
@@ -302,15 +314,48 @@ func (d *drafter) academic(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
 		return d.n.name(h)
 	}
-	var parts []string
-	for _, m := range h.Magnitudes {
-		parts = append(parts, d.academicPart(m))
+	if len(h.Magnitudes) == 1 {
+		return d.n.name(h) + ", " + d.n.sizes(h)
 	}
-	return strings.Join(parts, ", together with ")
+	return d.n.sizes(h)
 }
 
-func (d *drafter) academicPart(m rank.Magnitude) string {
-	return d.n.part(m) + ", " + magnitudeWords{m}.prose()
+// seriesPattern words the time course of a series as the subject of a
+// sentence: "the shifts of foliar δ15N (+2.6, +1.1 and +0.1 ‰) and
+// soil-nitrate δ15N (+7.5, +4.5 and +1.0 ‰) two, five and ten years after
+// the clear-cut harvest".
+func seriesPattern(u summaryUnit) patternText {
+	var whens []string
+	for _, c := range u.comparisons {
+		if c.Years != nil {
+			whens = append(whens, strings.TrimSuffix(strings.TrimSuffix(yearsWords(*c.Years), " years"), " year"))
+		}
+	}
+	var parts []string
+	for _, o := range u.comparisons[0].Observed {
+		var vs []string
+		for _, c := range u.comparisons {
+			for _, oc := range c.Observed {
+				if oc.Observable == o.Observable {
+					if oc.LogRatio {
+						vs = append(vs, "ln ratio "+plusSigned(oc.Shift, 2))
+					} else {
+						vs = append(vs, plusSigned(oc.Shift, 1))
+					}
+				}
+			}
+		}
+		unit := " ‰"
+		if o.LogRatio {
+			unit = ""
+		}
+		parts = append(parts, obsName(o.Observable)+" ("+joinAnd(vs)+unit+")")
+	}
+	when := ""
+	if tw := treatmentWords(u.comparisons[0].Treatment); tw != "" && len(whens) == len(u.comparisons) {
+		when = " " + joinAnd(whens) + " years after the " + tw
+	}
+	return patternText{text: "the shifts of " + joinAnd(parts) + when, plural: true}
 }
 
 // patternText is a comparison's observed pattern as a noun phrase, and

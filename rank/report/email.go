@@ -179,7 +179,14 @@ func summaryUnits(r *rank.Result) []summaryUnit {
 		}
 		for _, sr := range r.Series {
 			if sr.Name == c.Series {
-				u.ranked = rank.ComparisonResult{Name: sr.Name, Treatment: c.Treatment, Hypotheses: sr.Hypotheses, Measurements: sr.Measurements, Leading: sr.Leading, NoFit: sr.NoFit, Series: sr.Name, Observed: c.Observed}
+				u.ranked = rank.ComparisonResult{Name: sr.Name, Treatment: c.Treatment, Years: c.Years, Hypotheses: sr.Hypotheses, Measurements: sr.Measurements, Leading: sr.Leading, NoFit: sr.NoFit, Series: sr.Name}
+				// The joint predictions are keyed "comparison/observable".
+				for _, cc := range u.comparisons {
+					for _, o := range cc.Observed {
+						o.Observable = cc.Name + "/" + o.Observable
+						u.ranked.Observed = append(u.ranked.Observed, o)
+					}
+				}
 			}
 		}
 		out = append(out, u)

@@ -92,6 +92,9 @@ const notable = 0.05
 // obsName names an observable in prose: "foliar δ15N", "the soil nitrate
 // pool".
 func obsName(o string) string {
+	if i := strings.LastIndex(o, "/"); i > 0 {
+		return obsName(o[i+1:]) + " in " + quoteName(o[:i]) // a series' "comparison/observable"
+	}
 	switch o {
 	case "foliage":
 		return "foliar δ15N"
@@ -493,7 +496,7 @@ func (n namer) sizes(h rank.Hypothesis) string {
 		for _, m := range h.Magnitudes {
 			parts = append(parts, n.part(m)+", "+prose(m))
 		}
-		s = strings.Join(parts, "; ")
+		s = strings.Join(parts, "; and ")
 	}
 	if d := h.Duration; d != nil {
 		s += fmt.Sprintf(", for about %s after the treatment (90 %% interval %s–%s years)", yearsWords(roundYears(d.Best)), trimFloat(roundYears(d.Low)), trimFloat(roundYears(d.High)))
