@@ -28,8 +28,11 @@ type Reference struct {
 	URL         string   `yaml:"url" json:"url,omitempty"`
 	// Status says which fields were confirmed and which are from memory.
 	Status string `yaml:"status" json:"status,omitempty"`
-	Note   string `yaml:"note" json:"note,omitempty"`
-	Line   int    `yaml:"-" json:"-"`
+	// Supports lists what the work may be cited for, in the vocabulary of
+	// references.yaml ("fractionation:nitrification", "net-rates", …).
+	Supports []string `yaml:"supports" json:"supports,omitempty"`
+	Note     string   `yaml:"note" json:"note,omitempty"`
+	Line     int      `yaml:"-" json:"-"`
 }
 
 // Cite returns the author–year form used in text: "Högberg 1997",
@@ -73,6 +76,8 @@ var (
 	refTypes = map[string]bool{"article": true, "book": true, "chapter": true, "thesis": true, "report": true, "web": true}
 	reKey    = regexp.MustCompile(`^[a-z][a-z0-9-]*[a-z0-9]$`)
 	reDOI    = regexp.MustCompile(`^10\.\d{4,9}/\S+$`)
+	// reSupports is the vocabulary of a reference's supports (references.yaml).
+	reSupports = regexp.MustCompile(`^(net-rates|gross-rates|(fractionation|process|response|bounds|observable):[a-z0-9][a-z0-9:-]*)$`)
 )
 
 func (b *Base) loadReferences(fsys fs.FS) error {
@@ -135,6 +140,11 @@ func (b *Base) loadReferences(fsys fs.FS) error {
 		}
 		if r.Status == "" {
 			at("status", "missing: say what was confirmed and what is from memory")
+		}
+		for j, s := range r.Supports {
+			if !reSupports.MatchString(s) {
+				at(fmt.Sprintf("supports[%d]", j), "expected net-rates, gross-rates or fractionation:, process:, response:, bounds: or observable: and a name, got %q", s)
+			}
 		}
 	}
 	b.References = f.References

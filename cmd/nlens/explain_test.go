@@ -181,3 +181,16 @@ func TestProgressBar(t *testing.T) {
 		t.Errorf("progress drawn on a non-terminal: %q", errs)
 	}
 }
+
+// Every JSON nlens writes keeps "&" literal (no HTML escaping): the
+// measurement notes cite "Stark & Hart 1997".
+func TestJSONKeepsAmpersand(t *testing.T) {
+	t.Parallel()
+	out, errs, code := runArgs(t, "facts", "measurements", "--format", "json")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	if !strings.Contains(out, "Stark & Hart") || strings.Contains(out, `\u0026`) {
+		t.Errorf("facts JSON does not carry \"&\" literally")
+	}
+}

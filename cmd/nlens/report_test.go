@@ -59,7 +59,7 @@ func TestExplainTextAndMarkdown(t *testing.T) {
 		format string
 		want   []string
 	}{
-		{"text", []string{"Hi,", "What I would measure next:", "One caution:"}},
+		{"text", []string{"Hi,", "clear-cut harvest", "indicative, not proof", "licensed professionals", "Best,"}},
 		{"markdown", []string{"# CLI report test", "## Discussion draft", "## Cautions", "## Methods", "## References"}},
 	} {
 		t.Run(tc.format, func(t *testing.T) {

@@ -1,7 +1,6 @@
 package report
 
 import (
-	"encoding/json"
 	"io"
 	"strconv"
 	"strings"
@@ -31,9 +30,7 @@ func Q(name string, v float64, unit string) Quantity { return Quantity{name, fin
 // WriteAnswer renders an answer as text or JSON.
 func WriteAnswer(w io.Writer, a Answer, format string) error {
 	if format == FormatJSON {
-		enc := json.NewEncoder(w)
-		enc.SetIndent("", "  ")
-		return enc.Encode(a)
+		return writeJSON(w, a)
 	}
 	ew := &errWriter{w: w}
 	ew.printf("%s\n\n", a.Title)
@@ -69,22 +66,4 @@ func WriteAnswer(w io.Writer, a Answer, format string) error {
 		ew.printf("\n%s\n", wrap("Note: "+n, 78))
 	}
 	return ew.err
-}
-
-// decimalsFor shows small numbers with enough digits.
-func decimalsFor(v float64) int {
-	switch a := abs(v); {
-	case a == 0 || a >= 1:
-		return 3
-	case a >= 0.01:
-		return 4
-	}
-	return 7
-}
-
-func abs(v float64) float64 {
-	if v < 0 {
-		return -v
-	}
-	return v
 }

@@ -5,6 +5,9 @@ import (
 	"io"
 	"strconv"
 	"strings"
+	"unicode/utf8"
+
+	"golang.org/x/text/unicode/norm"
 
 	"nlens/knowledge"
 )
@@ -150,7 +153,7 @@ func bibEntry(r knowledge.Reference) string {
 	}
 	add("volume", bibEscape(r.Volume))
 	add("number", bibEscape(r.Issue))
-	add("pages", strings.ReplaceAll(bibEscape(r.Pages), "–", "--"))
+	add("pages", bibEscape(r.Pages))
 	add("doi", r.DOI)
 	if r.URL != "" {
 		add("url", r.URL)
@@ -185,8 +188,69 @@ func bibNames(names []string) string {
 	return strings.Join(out, " and ")
 }
 
-// bibEscape escapes the characters BibTeX and LaTeX treat specially.
+// bibEscape escapes the characters BibTeX and LaTeX treat specially and
+// writes every non-ASCII character as a LaTeX command, so that classic
+// BibTeX (which reads bytes, not UTF-8) sorts and prints names correctly:
+// é → {\'e}, ö → {\"o}, ø → {\o}, å → {\aa}, ‰ → {\textperthousand},
+// – → --. A character with no LaTeX form is written as "?" rather than
+// passed through raw.
 func bibEscape(s string) string {
-	r := strings.NewReplacer(`\`, `\textbackslash{}`, "&", `\&`, "%", `\%`, "$", `\$`, "#", `\#`, "_", `\_`, "{", `\{`, "}", `\}`)
-	return r.Replace(s)
+	var b strings.Builder
+	for _, r := range norm.NFC.String(s) {
+		switch {
+		case r == '\\':
+			b.WriteString(`\textbackslash{}`)
+		case strings.ContainsRune("&%$#_{}", r):
+			b.WriteString(`\` + string(r))
+		case r < utf8.RuneSelf:
+			b.WriteRune(r)
+		default:
+			b.WriteString(latexRune(r))
+		}
+	}
+	return b.String()
 }
+
+// latexSpecial are non-ASCII characters with a LaTeX form of their own.
+var latexSpecial = map[rune]string{
+	'ø': `{\o}`, 'Ø': `{\O}`, 'å': `{\aa}`, 'Å': `{\AA}`, 'æ': `{\ae}`, 'Æ': `{\AE}`,
+	'œ': `{\oe}`, 'Œ': `{\OE}`, 'ß': `{\ss}`, 'ł': `{\l}`, 'Ł': `{\L}`, 'ı': `{\i}`,
+	'‰': `{\textperthousand}`, '–': `--`, '—': `---`, '‘': "`", '’': `'`, '“': "``", '”': `''`,
+	'\u00a0': `~`, '−': `$-$`, '±': `$\pm$`, '×': `$\times$`, '→': `$\rightarrow$`, '°': `{\textdegree}`,
+	'α': `$\alpha$`, 'β': `$\beta$`, 'γ': `$\gamma$`, 'δ': `$\delta$`, 'Δ': `$\Delta$`, 'ε': `$\varepsilon$`,
+	'μ': `$\mu$`, 'µ': `$\mu$`, 'σ': `$\sigma$`,
+	'⁺': `$^{+}$`, '⁻': `$^{-}$`, '₂': `$_2$`, '₃': `$_3$`, '₄': `$_4$`, '²': `$^2$`, '³': `$^3$`, '¹': `$^1$`, '⁵': `$^5$`,
+}
+
+// latexAccents maps combining marks to the LaTeX accent commands.
+var latexAccents = map[rune]string{
+	'\u0301': `\'`, '\u0300': "\\`", '\u0308': `\"`, '\u0302': `\^`, '\u0303': `\~`, '\u0304': `\=`,
+	'\u0306': `\u`, '\u0307': `\.`, '\u030A': `\r`, '\u030B': `\H`, '\u030C': `\v`, '\u0327': `\c`, '\u0328': `\k`,
+}
+
+// latexRune writes one non-ASCII character: a special form, or an ASCII
+// letter with one accent ({\'e}, {\v{c}}).
+func latexRune(r rune) string {
+	if s, ok := latexSpecial[r]; ok {
+		return s
+	}
+	d := []rune(norm.NFD.String(string(r)))
+	if len(d) == 2 && d[0] < utf8.RuneSelf {
+		if acc, ok := latexAccents[d[1]]; ok {
+			base := string(d[0])
+			switch base {
+			case "i":
+				base = `\i`
+			case "j":
+				base = `\j`
+			}
+			if len(acc) == 2 && !isLetter(acc[1]) && len(base) == 1 {
+				return "{" + acc + base + "}" // {\'e}
+			}
+			return "{" + acc + "{" + base + "}}" // {\v{c}}, {\'{\i}}
+		}
+	}
+	return "?"
+}
+
+func isLetter(c byte) bool { return c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' }

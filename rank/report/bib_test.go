@@ -240,3 +240,59 @@ func TestFullReferenceSuffix(t *testing.T) {
 		t.Errorf("got %q, want %q", got, want)
 	}
 }
+
+// Author names as they stand in knowledge/references.yaml must reach BibTeX
+// as LaTeX escapes: classic BibTeX reads bytes, so raw UTF-8 breaks sorting,
+// initials and output. The expected forms are the standard LaTeX accent
+// commands (Lamport, LaTeX: A Document Preparation System, 2nd edn, Table
+// 3.1), not the code's own output.
+func TestBibTeXEscapesRealNames(t *testing.T) {
+	kb := knowledge.MustDefault()
+	tests := []struct{ name, key, want string }{
+		{"ö", "hogberg2011", `H{\"o}gberg, P.`},
+		{"ä", "hogberg2011", `N{\"a}sholm, T.`},
+		{"ñ", "craine2009", `Pe{\~n}uelas, J.`},
+		{"ñ and é", "craine2018", `Mara{\~n}{\'o}n-Jim{\'e}nez, S.`},
+		{"ń", "craine2018", `Zmudczy{\'n}ska-Skarbek, K.`},
+		{"ø", "pardo2006", `Kj{\o}naas, J.`},
+		{"å", "bengtsson2003", `M{\aa}nsson, K. F.`},
+		{"Ü and õ", "becker2018", `Mander, {\"U}.`},
+		{"õ", "becker2018", `L{\~o}hmus, K.`},
+		{"en dash in pages", "hogberg2011", `pages = {515--525}`},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			r, ok := kb.Reference(tt.key)
+			if !ok {
+				t.Fatalf("reference %s not in the knowledge base", tt.key)
+			}
+			if got := bibEntry(r); !strings.Contains(got, tt.want) {
+				t.Errorf("BibTeX of %s lacks %q:\n%s", tt.key, tt.want, got)
+			}
+		})
+	}
+	for _, tt := range []struct{ in, want string }{
+		{"15N‰", `15N{\textperthousand}`},
+		{"δ15N of NO3−", `$\delta$15N of NO3$-$`},
+		{"A & B_c", `A \& B\_c`},
+	} {
+		if got := bibEscape(tt.in); got != tt.want {
+			t.Errorf("bibEscape(%q) = %q, want %q", tt.in, got, tt.want)
+		}
+	}
+	// Every entry of the knowledge base: ASCII only, and no character left
+	// without a LaTeX form ("?" where the source had none).
+	for _, r := range kb.References {
+		got := bibEntry(r)
+		for i, c := range got {
+			if c >= 0x80 {
+				t.Errorf("%s: non-ASCII %q at %d", r.Key, c, i)
+				break
+			}
+		}
+		src := strings.Join(append(append([]string{r.Title, r.Journal, r.Booktitle, r.Publisher, r.Institution, r.Pages}, r.Authors...), r.Editors...), " ")
+		if strings.Count(got, "?") > strings.Count(src, "?") {
+			t.Errorf("%s: a character had no LaTeX form:\n%s", r.Key, got)
+		}
+	}
+}

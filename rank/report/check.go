@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"io"
 	"slices"
-	"strconv"
 	"strings"
 
 	"nlens/knowledge"
@@ -131,17 +130,4 @@ func appliedTreatment(st *study.Study, c *study.Comparison, kb *knowledge.Base) 
 		out = append(out, "no treatment declared that acts on the model: every hypothesis starts from the control")
 	}
 	return out
-}
-
-// g3 writes a forcing size with up to three significant digits and no
-// trailing zeros (0.2, 5, 98).
-func g3(v float64) string { return strconv.FormatFloat(v, 'g', 3, 64) }
-
-func percent(v float64) string { return g3(100*v) + " %" }
-
-func percentRange(r []float64) string {
-	if len(r) != 2 {
-		return ""
-	}
-	return g3(100*r[0]) + "–" + g3(100*r[1]) + " %"
 }

@@ -17,27 +17,32 @@ import (
 // result rest on the Methods section.
 func discussion(r *rank.Result, kb *knowledge.Base, ci citer) []string {
 	d := drafter{kb: kb, ci: ci, site: r.SiteID}
-	switch n := len(r.Comparisons); {
+	units := summaryUnits(r)
+	switch n := len(units); {
 	case n == 0:
 		return []string{"The study defines no comparison, so there is nothing to discuss."}
-	case n == 1:
-		c := r.Comparisons[0]
+	case n == 1 && units[0].series == "":
+		c := units[0].ranked
 		d.n = newNamer(kb, c)
-		first := d.interpretation(c, false)
+		first := d.interpretation(units[0], false)
 		if second := d.openQuestions(c); second != "" {
 			return []string{first, second}
 		}
 		return []string{first}
 	default:
 		var out []string
-		for i, c := range r.Comparisons {
+		for i, u := range units {
 			if i == 2 && n > 3 {
-				out = append(out, d.remaining(r.Comparisons[2:]))
+				var rest []rank.ComparisonResult
+				for _, v := range units[2:] {
+					rest = append(rest, v.ranked)
+				}
+				out = append(out, d.remaining(rest))
 				break
 			}
-			d.n = newNamer(kb, c)
-			p := d.interpretation(c, true)
-			if q := d.openQuestions(c); q != "" {
+			d.n = newNamer(kb, u.ranked)
+			p := d.interpretation(u, true)
+			if q := d.openQuestions(u.ranked); q != "" {
 				p += " " + q
 			}
 			out = append(out, p)
@@ -58,10 +63,14 @@ type drafter struct {
 
 // interpretation is the leading explanation: the pattern, the candidate,
 // its size and its mechanism. named says the comparison by name.
-func (d *drafter) interpretation(c rank.ComparisonResult, named bool) string {
+func (d *drafter) interpretation(u summaryUnit, named bool) string {
+	c := u.ranked
 	var b strings.Builder
 	intro := ""
-	if named {
+	switch {
+	case u.series != "":
+		intro = "In the series " + quoteName(u.series) + ", explained jointly, "
+	case named:
 		intro = "In the " + quoteName(c.Name) + " comparison, "
 	}
 	if len(c.Hypotheses) == 0 {
@@ -69,14 +78,25 @@ func (d *drafter) interpretation(c rank.ComparisonResult, named bool) string {
 	}
 	top := c.Hypotheses[0]
 	pattern := d.pattern(c)
+	if u.series != "" {
+		pattern = seriesPattern(u)
+	}
 	switch {
 	case c.NoFit:
 		fmt.Fprintf(&b, "%s%s %s not reproduced by any of the candidate changes in N cycling considered here: the closest, %s, fails the posterior-predictive check (%s). This suggests that a process not represented in the model, a site that departs from the `%s` template, or a problem in the data is involved, and the ranking should not be read as support for any candidate.",
 			intro, pattern.text, pattern.verb("is", "are"), d.n.name(top), pValue(top.Fit.P), d.site)
 		return capitalize(b.String())
-	case top.ID == rank.NoneID:
-		fmt.Fprintf(&b, "%s%s %s small relative to their uncertainty, and the most probable interpretation is that N cycling did not change (posterior probability %s).",
+	case top.ID == rank.NoneID && !c.Treatment.Empty():
+		fmt.Fprintf(&b, "%s%s %s most simply explained by the declared treatment itself, without a change in N-cycle processes beyond it (posterior probability %s).",
 			intro, pattern.text, pattern.verb("is", "are"), fmtProb(top.Posterior))
+		return capitalize(b.String())
+	case top.ID == rank.NoneID && !anyStandsOut(c.Observed):
+		fmt.Fprintf(&b, "%s%s %s within the uncertainty of the data, and the most probable interpretation is that N cycling did not change (posterior probability %s).",
+			intro, pattern.text, pattern.verb("is", "are"), fmtProb(top.Posterior))
+		return capitalize(b.String())
+	case top.ID == rank.NoneID:
+		fmt.Fprintf(&b, "%sAlthough %s %s, no candidate change in N cycling reproduces %s better than no change, given the uncertainty of the data and the model's structural error (posterior probability of no change %s).",
+			intro, pattern.text, pattern.verb("stands out", "stand out"), pattern.verb("it", "them"), fmtProb(top.Posterior))
 		return capitalize(b.String())
 	}
 	fmt.Fprintf(&b, "%s%s %s most consistent with %s; this explanation carries a posterior probability of %s.",
@@ -98,7 +118,7 @@ func (d *drafter) openQuestions(c rank.ComparisonResult) string {
 	if !c.NoFit && len(hs) > 1 {
 		var good, poor []rank.Hypothesis
 		for _, h := range hs[1:] {
-			if h.Fit.P >= adequateFit {
+			if fitOf(h.Fit.P) == fitAdequate {
 				good = append(good, h)
 			} else {
 				poor = append(poor, h)
@@ -136,6 +156,9 @@ func (d *drafter) openQuestions(c rank.ComparisonResult) string {
 				capitalize(d.n.name(h)), fmtProb(h.Posterior), pValue(h.Fit.P)))
 		}
 		for _, h := range good {
+			if h.ID == rank.NoneID {
+				continue
+			}
 			if m := d.mechanism(h, "Under the alternative involving "+d.n.short(h)+", "); m != "" {
 				sentences = append(sentences, m)
 				break
@@ -170,7 +193,7 @@ func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) stri
 		ids = append(ids, h.ID)
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "Measuring %s would probably be the most effective way to discriminate among these explanations (expected information gain %s bits)", m.Label, sig2(m.Bits))
+	fmt.Fprintf(&b, "Measuring %s would probably be the most effective way to discriminate among these explanations (expected information gain %s)", m.Label, bits(m.Bits))
 	if a, bb, z := separation(m, ids); a != "" && z > 0 {
 		ha, _ := hypothesisByID(c, a)
 		hb, _ := hypothesisByID(c, bb)
@@ -183,7 +206,7 @@ func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) stri
 	if len(c.Measurements) > 1 {
 		m2 := c.Measurements[1]
 		if m2.Bits >= minUsefulBits && m2.Cost < m.Cost {
-			fmt.Fprintf(&b, " %s, which is cheaper, would add about %s bits", capitalize(m2.Label), sig2(m2.Bits))
+			fmt.Fprintf(&b, " %s, which is cheaper, would add about %s", capitalize(m2.Label), bits(m2.Bits))
 			if r := d.measurementRefs(m2.ID); r != "" {
 				b.WriteString(" " + r)
 			}
@@ -193,26 +216,10 @@ func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) stri
 	return b.String()
 }
 
-// adequateFit is the posterior-predictive p below which the discussion
-// does not call an alternative's fit comparable (the usual 5 % level,
-// common practice; the engine's own no-fit threshold is stricter).
-const adequateFit = 0.05
-
-// pValue is "p = 0.27" or "p < 0.001".
-func pValue(p float64) string {
-	s := fmtP(p)
-	if strings.HasPrefix(s, "<") {
-		return "p " + s
-	}
-	return "p = " + s
-}
-
-// under is "the nitrification scenario", "no change".
+// under names a hypothesis after "under": "more nitrification", "a
+// change in uptake form", "no change beyond the treatment".
 func (d *drafter) under(h rank.Hypothesis) string {
-	if h.ID == rank.NoneID {
-		return "no change"
-	}
-	return "the " + d.n.short(h) + " scenario"
+	return d.n.short(h)
 }
 
 func (d *drafter) measurementRefs(id string) string {
@@ -307,18 +314,48 @@ func (d *drafter) academic(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
 		return d.n.name(h)
 	}
-	var parts []string
-	for _, m := range h.Magnitudes {
-		parts = append(parts, d.academicPart(m))
+	if len(h.Magnitudes) == 1 {
+		return d.n.name(h) + ", " + d.n.sizes(h)
 	}
-	return strings.Join(parts, ", together with ")
+	return d.n.sizes(h)
 }
 
-func (d *drafter) academicPart(m rank.Magnitude) string {
-	if strings.HasPrefix(m.Candidate, rank.SourcePrefix) {
-		return magnitudeWords{m}.sentence("an undeclared input of " + d.n.sourceName(m.Candidate))
+// seriesPattern words the time course of a series as the subject of a
+// sentence: "the shifts of foliar δ15N (+2.6, +1.1 and +0.1 ‰) and
+// soil-nitrate δ15N (+7.5, +4.5 and +1.0 ‰) two, five and ten years after
+// the clear-cut harvest".
+func seriesPattern(u summaryUnit) patternText {
+	var whens []string
+	for _, c := range u.comparisons {
+		if c.Years != nil {
+			whens = append(whens, strings.TrimSuffix(strings.TrimSuffix(yearsWords(*c.Years), " years"), " year"))
+		}
 	}
-	return magnitudeWords{m}.sentence(m.Direction + " " + m.Process)
+	var parts []string
+	for _, o := range u.comparisons[0].Observed {
+		var vs []string
+		for _, c := range u.comparisons {
+			for _, oc := range c.Observed {
+				if oc.Observable == o.Observable {
+					if oc.LogRatio {
+						vs = append(vs, "ln ratio "+plusSigned(oc.Shift, 2))
+					} else {
+						vs = append(vs, plusSigned(oc.Shift, 1))
+					}
+				}
+			}
+		}
+		unit := " ‰"
+		if o.LogRatio {
+			unit = ""
+		}
+		parts = append(parts, obsName(o.Observable)+" ("+joinAnd(vs)+unit+")")
+	}
+	when := ""
+	if tw := treatmentWords(u.comparisons[0].Treatment); tw != "" && len(whens) == len(u.comparisons) {
+		when = " " + joinAnd(whens) + " years after the " + tw
+	}
+	return patternText{text: "the shifts of " + joinAnd(parts) + when, plural: true}
 }
 
 // patternText is a comparison's observed pattern as a noun phrase, and
@@ -326,13 +363,6 @@ func (d *drafter) academicPart(m rank.Magnitude) string {
 type patternText struct {
 	text   string
 	plural bool
-}
-
-func (p patternText) verb(singular, plural string) string {
-	if p.plural {
-		return plural
-	}
-	return singular
 }
 
 func verb(n int, singular, plural string) string {
@@ -351,9 +381,9 @@ func (d *drafter) pattern(c rank.ComparisonResult) patternText {
 	for _, o := range orderedObserved(c.Observed) {
 		name := obsName(o.Observable)
 		if o.LogRatio {
-			v := fmt.Sprintf("%s (ln ratio %s ± %s)", name, plusSigned(o.Shift, 2), signed(o.SE, 2))
+			v := fmt.Sprintf("%s (%s; ln ratio %s ± %s)", name, changeWords(math.Exp(o.Shift)), plusSigned(o.Shift, 2), signed(o.SE, 2))
 			switch {
-			case math.Abs(o.Shift) < clearSE*o.SE:
+			case shiftStrength(o.Shift, o.SE) == withinNoise:
 				unclear = append(unclear, v)
 			case o.Shift > 0:
 				bigger = append(bigger, v)
@@ -364,7 +394,7 @@ func (d *drafter) pattern(c rank.ComparisonResult) patternText {
 		}
 		v := fmt.Sprintf("%s (%s ± %s ‰)", name, plusSigned(o.Shift, 1), signed(o.SE, 1))
 		switch {
-		case math.Abs(o.Shift) < clearSE*o.SE:
+		case shiftStrength(o.Shift, o.SE) == withinNoise:
 			unclear = append(unclear, v)
 		case o.Shift > 0:
 			up = append(up, v)
@@ -385,10 +415,7 @@ func (d *drafter) pattern(c rank.ComparisonResult) patternText {
 	if len(smaller) > 0 {
 		parts = append(parts, "the decrease in "+joinAnd(smaller))
 	}
-	when := " under the treatment"
-	if c.Years != nil {
-		when = " " + yearsWords(*c.Years) + " after the treatment began"
-	}
+	when := " " + treatmentWhen(c)
 	if len(parts) == 0 {
 		return patternText{text: "the differences in " + joinAnd(unclear) + when, plural: true}
 	}

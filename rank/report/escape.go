@@ -26,7 +26,7 @@ func escapeRune(sb *strings.Builder, r rune, size int, b byte, keepNewline bool)
 	switch {
 	case r == utf8.RuneError && size <= 1:
 		fmt.Fprintf(sb, `\x%02x`, b)
-	case r == '\n' && keepNewline, unicode.IsGraphic(r):
+	case r == '\n' && keepNewline, visible(r):
 		sb.WriteRune(r)
 	case r < 0x80:
 		fmt.Fprintf(sb, `\x%02x`, r)
@@ -37,10 +37,18 @@ func escapeRune(sb *strings.Builder, r rune, size int, b byte, keepNewline bool)
 	}
 }
 
+// visible reports whether a rune is written as it is: a graphic character,
+// or one of the citation markers the Markdown writer places in its own
+// text (plain removes them from users' names, so they never come from a
+// file) and replaces before anything is written.
+func visible(r rune) bool {
+	return unicode.IsGraphic(r) || r == markOpen || r == markOpenIn || r == markClose
+}
+
 func escape(s string, keepNewline bool) string {
 	clean := true
 	for _, r := range s {
-		if !(unicode.IsGraphic(r) || r == '\n' && keepNewline) || r == utf8.RuneError {
+		if !(visible(r) || r == '\n' && keepNewline) || r == utf8.RuneError {
 			clean = false
 			break
 		}

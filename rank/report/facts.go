@@ -1,7 +1,6 @@
 package report
 
 import (
-	"encoding/json"
 	"fmt"
 	"io"
 	"slices"
@@ -269,7 +268,5 @@ func factsJSON(w io.Writer, kb *knowledge.Base, sections []string) error {
 			out.References = kb.References
 		}
 	}
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(out)
+	return writeJSON(w, out)
 }

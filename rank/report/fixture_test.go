@@ -236,7 +236,7 @@ func multiResult() *rank.Result {
 	volM := share("more-volatilization", "more", "NH3 volatilization", "the NH4+ outflow", 0.45, 0.3, 0.49, 0.001, 400)
 	volM.PriorHigh, volM.AtBound = 0.5, "high"
 	vol := rank.Hypothesis{ID: "more-volatilization", Label: "more NH3 volatilization", Direction: "more", Mechanism: "ammonia lost to the air is strongly depleted",
-		Refs: []string{"nh3volatilisation2018"}, Posterior: 0.7, PriorProb: 0.1, Magnitudes: []rank.Magnitude{volM},
+		Refs: []string{"walters2019"}, Posterior: 0.7, PriorProb: 0.1, Magnitudes: []rank.Magnitude{volM},
 		Predicted: map[string]rank.Moments{"foliage": mo(2.0, 0.6)}, Fit: rank.Fit{Chi2: 14, DOF: 1, P: 0.0002}}
 	noneNF := rank.Hypothesis{ID: "none", Label: "no change in N cycling", Posterior: 0.3, PriorProb: 0.3,
 		Predicted: map[string]rank.Moments{"foliage": mo(0, 0)}, Fit: rank.Fit{Chi2: 80, DOF: 1, P: 1e-19}}

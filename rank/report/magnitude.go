@@ -2,7 +2,6 @@ package report
 
 import (
 	"fmt"
-	"strconv"
 	"strings"
 
 	"nlens/rank"
@@ -12,21 +11,6 @@ import (
 // flux): a share as "takes 62 % of the NH4+ outflow, up from 21 %" and the
 // flux it implies as a ratio to the baseline flux. A rate-constant
 // multiplier is never shown (DESIGN §4).
-
-// pctText prints a share as a percentage with two significant digits
-// (three at or above 99.5 %, so 0.996 is not rounded to 100 %).
-func pctText(v float64) string {
-	p := 100 * v
-	switch {
-	case p >= 99.5:
-		return strconv.FormatFloat(p, 'f', 1, 64)
-	case p >= 10:
-		return strconv.FormatFloat(p, 'f', 0, 64)
-	case p >= 1:
-		return strconv.FormatFloat(p, 'f', 1, 64)
-	}
-	return strconv.FormatFloat(p, 'g', 2, 64)
-}
 
 // isShare reports whether a magnitude is a share (0–1).
 func isShare(m rank.Magnitude) bool { return m.Kind != "input" }
@@ -44,16 +28,26 @@ type magnitudeWords struct{ rank.Magnitude }
 
 // interval prints the 90 % interval, or the open side where it reaches a
 // prior bound: "45–80 %", "≥ 45 %", "≤ 80 %".
-func (m magnitudeWords) interval() string {
+func (m magnitudeWords) interval() string { return m.intervalIn(false) }
+
+// intervalWords is interval for running text: "45–80 %", "at least
+// 45 %", "at most 80 %".
+func (m magnitudeWords) intervalWords() string { return m.intervalIn(true) }
+
+func (m magnitudeWords) intervalIn(prose bool) string {
+	atLeast, atMost := "≥ ", "≤ "
+	if prose {
+		atLeast, atMost = "at least ", "at most "
+	}
 	if len(m.Modes) == 2 {
 		a, b := m.Modes[0], m.Modes[1]
 		return "two modes: " + m.value(a.Best) + " (" + m.value(a.Low) + "–" + m.value(a.High) + ") or " + m.value(b.Best) + " (" + m.value(b.Low) + "–" + m.value(b.High) + ")"
 	}
 	switch m.AtBound {
 	case "high":
-		return "≥ " + m.value(m.Low)
+		return atLeast + m.value(m.Low)
 	case "low":
-		return "≤ " + m.value(m.High)
+		return atMost + m.value(m.High)
 	case "both":
 		return "anywhere in " + m.value(m.PriorLow) + "–" + m.value(m.PriorHigh)
 	}
@@ -63,8 +57,19 @@ func (m magnitudeWords) interval() string {
 	return sig2(m.Low) + "–" + sig2(m.High) + " kg N/ha/yr"
 }
 
-// short is the compact form for tables: "62 % (45–80 %), was 21 %;
-// flux ×2.4".
+// fluxWords says what the magnitude means for its flux at the time of
+// sampling: "its flux about 85 % lower than at baseline"; "" where there
+// is no baseline flux to compare with.
+func (m magnitudeWords) fluxWords() string {
+	f := m.Flux
+	if f == nil || !f.HasRatio || m.Kind == "input" {
+		return ""
+	}
+	return "that flux " + changeAgainst(f.Ratio, "at baseline")
+}
+
+// short is the compact form for tables: "62% (45–80%), was 21%;
+// flux 2.4-fold".
 func (m magnitudeWords) short() string {
 	var b strings.Builder
 	b.WriteString(m.value(m.Best))
@@ -73,9 +78,11 @@ func (m magnitudeWords) short() string {
 		b.WriteString(", was " + m.value(m.Baseline))
 	}
 	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
-		b.WriteString("; flux ×" + sig2(f.Ratio))
+		b.WriteString("; flux " + changeShort(f.Ratio))
 	}
-	return b.String()
+	// Numbers keep their signs and units in one word, so a wrapped table
+	// cell never breaks "73 %" or "≤ 53 %" across lines.
+	return strings.NewReplacer(" %", "%", "≤ ", "≤", "≥ ", "≥", " kg N/ha/yr", "\u00a0kg\u00a0N/ha/yr").Replace(b.String())
 }
 
 // sentence is the full form: "nitrification takes 62 % (90 % interval
@@ -86,38 +93,38 @@ func (m magnitudeWords) sentence(process string) string {
 	switch m.Kind {
 	case "input":
 		if m.Baseline > 0 {
-			s = fmt.Sprintf("%s of about %s (90 %% interval %s), against %s in the site model", process, m.value(m.Best), m.interval(), m.value(m.Baseline))
+			s = fmt.Sprintf("%s of about %s (90 %% interval %s), against %s in the site model", process, m.value(m.Best), m.intervalWords(), m.value(m.Baseline))
 		} else {
-			s = fmt.Sprintf("%s of about %s (90 %% interval %s)", process, m.value(m.Best), m.interval())
+			s = fmt.Sprintf("%s of about %s (90 %% interval %s)", process, m.value(m.Best), m.intervalWords())
 		}
 	default:
 		dir := "up"
 		if m.Direction == "less" {
 			dir = "down"
 		}
-		s = fmt.Sprintf("%s taking %s (90 %% interval %s) of %s, %s from %s", process, m.value(m.Best), m.interval(), m.Of, dir, m.value(m.Baseline))
+		s = fmt.Sprintf("%s taking %s (90 %% interval %s) of %s, %s from %s", process, m.value(m.Best), m.intervalWords(), m.Of, dir, m.value(m.Baseline))
 	}
-	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
-		s += fmt.Sprintf("; the flux is then about %s times its baseline (%s–%s)", sig2(f.Ratio), sig2(f.RatioLow), sig2(f.RatioHi))
+	if fw := m.fluxWords(); fw != "" {
+		s += fmt.Sprintf("; %s (90 %% interval %s to %s)", fw, changeShort(m.Flux.RatioLow), changeShort(m.Flux.RatioHi))
 	}
 	return s
 }
 
 // prose is the form for running text, after the hypothesis's name: "about
-// 62 % of the NH4+ outflow (90 % interval 45–80 %) instead of 21 %, the
-// flux about 2.4 times its baseline".
+// 62 % of the NH4+ outflow instead of 21 % (90 % interval 45–80 %), the
+// flux about 2.4 times as high as at baseline".
 func (m magnitudeWords) prose() string {
 	var s string
 	switch {
 	case m.Kind == "input" && m.Baseline > 0:
-		s = fmt.Sprintf("about %s (90 %% interval %s) instead of %s", m.value(m.Best), m.interval(), m.value(m.Baseline))
+		s = fmt.Sprintf("about %s instead of %s (90 %% interval %s)", m.value(m.Best), m.value(m.Baseline), m.intervalWords())
 	case m.Kind == "input":
-		s = fmt.Sprintf("about %s (90 %% interval %s)", m.value(m.Best), m.interval())
+		s = fmt.Sprintf("about %s (90 %% interval %s)", m.value(m.Best), m.intervalWords())
 	default:
-		s = fmt.Sprintf("about %s of %s (90 %% interval %s) instead of %s", m.value(m.Best), m.Of, m.interval(), m.value(m.Baseline))
+		s = fmt.Sprintf("about %s of %s instead of %s (90 %% interval %s)", m.value(m.Best), m.Of, m.value(m.Baseline), m.intervalWords())
 	}
-	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
-		s += fmt.Sprintf(", the flux about %s times its baseline", sig2(f.Ratio))
+	if fw := m.fluxWords(); fw != "" {
+		s += ", with " + fw
 	}
 	return s
 }

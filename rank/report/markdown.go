@@ -3,7 +3,6 @@ package report
 import (
 	"fmt"
 	"io"
-	"math"
 	"strconv"
 	"strings"
 
@@ -47,8 +46,17 @@ func markdownReport(r *rank.Result, kb *knowledge.Base, opt MarkdownOptions) (st
 	if len(refs) == 0 {
 		b.WriteString("No references were cited.\n")
 	}
+	memory := false
 	for _, cr := range refs {
-		b.WriteString("- " + mdEscape(fullReference(cr.Ref, cr.Suffix)) + "\n")
+		line := mdEscape(fullReference(cr.Ref, cr.Suffix))
+		if fromMemory(cr.Ref) {
+			line += " †"
+			memory = true
+		}
+		b.WriteString("- " + line + "\n")
+	}
+	if memory {
+		b.WriteString("\n† Some details of this entry (authors, title, volume or pages) are from memory and were not checked against the publication; verify them before citing.\n")
 	}
 	return b.String(), refs
 }
@@ -63,11 +71,13 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 	fmt.Fprintf(&b, "# %s\n\n", mdEscape(plain(title)))
 	fmt.Fprintf(&b, "*Draft report written by nlens %s from the study file; check every statement before sending it on.*\n\n", mdEscape(r.Version))
 
+	for _, s := range noFitStatements(r) {
+		fmt.Fprintf(&b, "> **%s**\n\n", mdEscape(s))
+	}
 	b.WriteString("## Summary\n\n")
 	g := glosses{}
-	for _, c := range r.Comparisons {
-		n := newNamer(kb, c)
-		fmt.Fprintf(&b, "%s %s\n\n", mdEscape(patternSentence(c)), mdEscape(leadParagraph(c, n, &g, rateMarkdown)))
+	for _, u := range summaryUnits(r) {
+		fmt.Fprintf(&b, "%s\n\n", mdEscape(u.paragraph(kb, &g, fullDetail)))
 	}
 
 	plan := figurePlan(r)
@@ -113,21 +123,18 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 	writeTable(b, []string{"observable", "control", "treatment", "shift", "SE", "unit", "n (control / treatment)"}, "lrrrrlr", rows)
 
 	b.WriteString("### Explanations\n\n")
-	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: best value with its 90 % credible interval. Fit p: posterior-predictive check of the observed shifts; below 0.01 the explanation does not reproduce the data.\n\n")
+	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: best value with its 90 % credible interval. Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
 	rows = rows[:0]
 	for i, h := range c.Hypotheses {
 		if i >= opt.MaxHypotheses {
 			break
 		}
-		post := fmtProb(h.Posterior)
-		if h.Indistinguishable {
-			post = "counted with none"
-		}
+		post := posteriorCell(c, h)
 		rows = append(rows, []string{strconv.Itoa(i + 1), shortLabel(h), "`" + h.ID + "`", post, fmtProb(h.PriorProb), MagnitudeText(h), fmtP(h.Fit.P)})
 	}
 	writeTable(b, []string{"#", "explanation", "id", "posterior", "prior", "magnitude (90 % interval)", "fit p"}, "rllrrlr", rows)
 	if k := len(c.Hypotheses) - opt.MaxHypotheses; k > 0 {
-		fmt.Fprintf(b, "%d further candidates are listed in result.json (`--format json`).\n\n", k)
+		fmt.Fprintf(b, "%s listed in result.json (`--format json`).\n\n", count(float64(k), strconv.Itoa(k), "further candidate is", "further candidates are"))
 	}
 	lead := leadingIndex(c)
 	for _, i := range lead {
@@ -147,7 +154,7 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 			}
 			b.WriteString(".")
 		}
-		for _, a := range h.Adjustments {
+		for _, a := range uniqueAdjustments(h.Adjustments) {
 			fmt.Fprintf(b, " Prior ×%s by context rule `%s`", sig2(a.Factor), a.Rule)
 			if c := ci.cite(a.Refs...); c != "" {
 				b.WriteString(" " + c)
@@ -312,14 +319,6 @@ func methods(r *rank.Result, kb *knowledge.Base, ci citer) string {
 	fmt.Fprintf(&b, "To reproduce: `%s --seed %d --draws %d --model-error %s` with nlens %s and the same knowledge base.\n\n",
 		cmd, r.Seed, m.Draws, trimFloat(m.ModelErrorPermil), r.Version)
 	return b.String()
-}
-
-// trimFloat prints a setting with up to 6 significant digits.
-func trimFloat(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "n/a"
-	}
-	return strconv.FormatFloat(v, 'g', 6, 64)
 }
 
 // shellQuote quotes a path for a POSIX shell when it needs it.

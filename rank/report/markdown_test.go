@@ -109,7 +109,7 @@ func TestDiscussionDraft(t *testing.T) {
 		want []string
 	}{
 		{"transient", transientResult(), []string{
-			"this explanation carries a posterior probability of 0.58", "more nitrification taking 62 % (90 % interval 45–80 %) of the NH4+ outflow, up from 21 %",
+			"this explanation carries a posterior probability of 0.58", "more nitrification, about 62 % of the NH4+ outflow instead of 21 % (90 % interval 45–80 %)",
 			"Alternative interpretations cannot be excluded", "Measuring δ15N of soil NH4+ would probably",
 			"nitrifiers discriminate against 15N"}},
 		{"multi", multiResult(), []string{

@@ -1,7 +1,6 @@
 package report
 
 import (
-	"encoding/json"
 	"fmt"
 	"io"
 	"math"
@@ -114,9 +113,7 @@ func simulationJSON(w io.Writer, sim *forward.Simulation, times []float64, traj 
 		}
 		out.Trajectory = append(out.Trajectory, pt)
 	}
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(out)
+	return writeJSON(w, out)
 }
 
 func simulationTable(w io.Writer, sim *forward.Simulation, opt SimulationOptions, traj []forward.State, params []forward.Params) error {

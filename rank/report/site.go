@@ -2,7 +2,6 @@ package report
 
 import (
 	"bytes"
-	"encoding/json"
 	"fmt"
 	"io"
 	"math"
@@ -136,12 +135,6 @@ func siteJSON(sum *forward.SiteSummary) SiteJSON {
 		out.Units[o.Name] = o.Unit
 	}
 	return out
-}
-
-func writeJSON(w io.Writer, v any) error {
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(v)
 }
 
 // route names a transfer as "from→to".

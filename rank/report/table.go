@@ -4,8 +4,6 @@ import (
 	"bytes"
 	"fmt"
 	"io"
-	"math"
-	"strconv"
 	"strings"
 
 	"github.com/olekukonko/tablewriter"
@@ -120,55 +118,6 @@ func toAny(s []string) []any {
 		out[i] = v
 	}
 	return out
-}
-
-// signed formats a δ or shift with sign and fixed decimals; a non-finite
-// value prints as "n/a" so that NaN or Inf never reach a user.
-func signed(v float64, decimals int) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "n/a"
-	}
-	if v == 0 || math.Abs(v) < 0.5*math.Pow(10, -float64(decimals)) {
-		v = 0
-	}
-	return strconv.FormatFloat(v, 'f', decimals, 64)
-}
-
-// plusSigned is signed with an explicit + for positive values.
-func plusSigned(v float64, decimals int) string {
-	s := signed(v, decimals)
-	if v > 0 && s != "n/a" && strings.Trim(s, "0.") != "" {
-		return "+" + s
-	}
-	return s
-}
-
-// num formats a positive quantity with about four significant digits.
-func num(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "n/a"
-	}
-	switch a := math.Abs(v); {
-	case a == 0:
-		return "0"
-	case a >= 1e5 || a < 1e-3:
-		return strconv.FormatFloat(v, 'g', 3, 64)
-	case a >= 100:
-		return strconv.FormatFloat(v, 'f', 0, 64)
-	case a >= 10:
-		return strconv.FormatFloat(v, 'f', 1, 64)
-	case a >= 1:
-		return strconv.FormatFloat(v, 'f', 2, 64)
-	}
-	return strconv.FormatFloat(v, 'f', 3, 64)
-}
-
-// finite replaces a non-finite value by nil for JSON.
-func finite(v float64) *float64 {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return nil
-	}
-	return &v
 }
 
 // errWriter records the first write error so a sequence of Fprintf calls can

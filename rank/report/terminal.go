@@ -37,6 +37,9 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 		title = r.StudyFile
 	}
 	ew.printf("%s\nsite model: %s\n", title, r.SiteID)
+	for _, s := range noFitStatements(r) {
+		ew.printf("\n%s\n", wrap("WARNING: "+s, 78))
+	}
 	for _, c := range r.Comparisons {
 		ew.printf("\n== %s (%s)\n\nObserved shifts (treatment − control)\n", c.Name, when(c.Years))
 		if err := observedTable(ew, c.Observed); err != nil {
@@ -48,10 +51,7 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 			if i >= opt.MaxHypotheses {
 				break
 			}
-			post := fmtProb(h.Posterior)
-			if h.Indistinguishable {
-				post = "= none"
-			}
+			post := posteriorCell(c, h)
 			rows = append(rows, []string{strconv.Itoa(i + 1), shortLabel(h), post, MagnitudeText(h), fmtP(h.Fit.P)})
 		}
 		if err := wrappedTable(ew, []string{"#", "explanation", "posterior", "magnitude (90 %)", "fit p"}, "rlrlr", rows, []int{0, 30, 0, 24, 0}); err != nil {
@@ -60,6 +60,7 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 		if n := len(c.Hypotheses) - opt.MaxHypotheses; n > 0 {
 			ew.printf("(%d more in --format json)\n", n)
 		}
+		ew.printf("%s\n", wrap(tableLegend(c), 78))
 		lead := leadingIndex(c)
 		if len(lead) > 0 {
 			ew.printf("\nPredicted shifts under the leading explanations (mean ± sd)\n")
@@ -91,7 +92,20 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 			ew.printf("\n%s\n", wrap("warning: "+wm, 78))
 		}
 	}
+	ew.printf("\n%s\n", wrap("Cautions: "+strings.Join(shortCautions, " "), 78))
 	return ew.err
+}
+
+// tableLegend explains the columns of the explanations table: the
+// posterior, the magnitude and "fit p", and "with #k" where it occurs.
+func tableLegend(c rank.ComparisonResult) string {
+	s := "posterior: probability given the data and priors (all sum to 1); magnitude: median (90 % interval), was = baseline; fit p: probability of a fit at least this poor if the explanation were right (below 0.01 it does not reproduce the data)."
+	for _, h := range c.Hypotheses {
+		if h.Indistinguishable {
+			return s + " with #k: predictions within noise of #k's, so its probability is counted there."
+		}
+	}
+	return s
 }
 
 // leadingIndex maps the comparison's leading ids to hypothesis indices.
@@ -105,35 +119,6 @@ func leadingIndex(c rank.ComparisonResult) []int {
 		}
 	}
 	return out
-}
-
-// sig2 prints two significant digits (three at or above 100).
-func sig2(v float64) string {
-	if v >= 100 {
-		return strconv.FormatFloat(v, 'f', 0, 64)
-	}
-	return strconv.FormatFloat(v, 'g', 2, 64)
-}
-
-func fmtProb(p float64) string {
-	switch {
-	case p >= 0.995:
-		return "> 0.99"
-	case p < 0.005:
-		return "< 0.01"
-	}
-	return strconv.FormatFloat(p, 'f', 2, 64)
-}
-
-func fmtP(p float64) string {
-	if p < 0.001 {
-		return "< 0.001"
-	}
-	return strconv.FormatFloat(p, 'f', 2, 64)
-}
-
-func pm(mean, sd float64, dec int) string {
-	return plusSigned(mean, dec) + "±" + signed(sd, dec)
 }
 
 func shortMeasurement(m rank.Measurement) string {
