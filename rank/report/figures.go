@@ -25,7 +25,9 @@ const (
 	// (mean ± sd) under each leading explanation, per observable.
 	FigureShifts = "shifts"
 	// FigureTrajectories: predicted shift of each observed observable over
-	// the years since the treatment began, with the observation marked.
+	// the years since the treatment began, median and 90 % band of
+	// posterior samples, with the treatment's start and the observations
+	// marked.
 	FigureTrajectories = "trajectories"
 	// FigureMeasurements: the top next measurements, predicted shift ± sd
 	// under each leading explanation.
@@ -120,11 +122,7 @@ func figurePlan(r *rank.Result) []figureSpec {
 			"Observed and predicted shifts, " + name,
 			"Observed shift (treatment − control, ± 1 SE) and the shift predicted under each leading explanation (posterior mean ± 1 sd), per observable."})
 		if len(pathsToDraw(c)) > 0 {
-			cap := "Predicted shift of each observed observable over the years since the treatment began under the leading explanations (best magnitudes, nominal site); the dotted line and the black point mark the observation (± 1 SE)."
-			if c.Years == nil {
-				cap = "Predicted approach of each observed observable to its new steady state under the leading explanations (best magnitudes, nominal site; logarithmic time axis); the observed long-standing contrast (± 1 SE) is shown at the right."
-			}
-			out = append(out, figureSpec{FigureTrajectories, i, FigureTrajectories + suffix, "Predicted trajectories, " + name, cap})
+			out = append(out, figureSpec{FigureTrajectories, i, FigureTrajectories + suffix, "Predicted trajectories, " + name, trajectoryCaption(c)})
 		}
 		if len(c.Measurements) > 0 {
 			out = append(out, figureSpec{FigureMeasurements, i, FigureMeasurements + suffix,
@@ -151,7 +149,7 @@ func Figure(w io.Writer, r *rank.Result, comparison int, kind, format string) er
 	case FigureShifts:
 		fig, err = shiftsFigure(c)
 	case FigureTrajectories:
-		fig, err = trajectoriesFigure(c)
+		fig, err = trajectoriesFigure(r, comparison)
 	case FigureMeasurements:
 		fig, err = measurementsFigure(c)
 	default:

@@ -2,7 +2,6 @@ package report
 
 import (
 	"bytes"
-	"context"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -13,8 +12,6 @@ import (
 	"golang.org/x/net/html"
 
 	"nlens/rank"
-	"nlens/rank/study"
-	"nlens/rules"
 )
 
 func renderHTML(t *testing.T, r *rank.Result, opt HTMLOptions) []byte {
@@ -30,25 +27,13 @@ func renderHTML(t *testing.T, r *rank.Result, opt HTMLOptions) []byte {
 // of the one `nlens demo` embeds) with the defaults of `nlens demo`.
 func demoResult(t *testing.T) *rank.Result {
 	t.Helper()
-	kb := testKB(t)
 	path := filepath.Join("..", "..", "testdata", "demo", "study.yaml")
 	data, err := os.ReadFile(path)
 	if err != nil {
 		t.Fatal(err)
 	}
-	st, err := study.Parse(path, data, kb, study.Options{}, os.ReadFile)
-	if err != nil {
-		t.Fatal(err)
-	}
-	set, err := rules.Default(kb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := rank.Explain(context.Background(), st, kb, set, rank.Options{Seed: rank.DefaultSeed, Draws: rank.DefaultDraws,
+	r := explainStudy(t, path, data, rank.Options{Seed: rank.DefaultSeed, Draws: rank.DefaultDraws,
 		MaxDraws: rank.DefaultMaxDraws, ModelError: rank.DefaultModelError, Version: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
 	r.StudyFile, r.Demo = "demo/study.yaml", true
 	return r
 }
