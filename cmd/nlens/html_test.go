@@ -20,6 +20,11 @@ func TestExplainHTML(t *testing.T) {
 			t.Errorf("--format html output lacks %q", want)
 		}
 	}
+	// The page goes through the terminal's escaping (humanOut); a tab in
+	// the figures' markup would arrive as the text \x09 and break it.
+	if strings.Contains(out, `\x`) || strings.Contains(out, `\u`) {
+		t.Error("--format html output holds escaped control characters")
+	}
 	dir := filepath.Join(t.TempDir(), "report")
 	code, _, errOut = runReport(t, append([]string{"demo", "--out", dir, "--format", "json"}, reportFlags...)...)
 	if code != 0 {

@@ -92,8 +92,8 @@ a.cite { text-decoration: none; border-bottom: 1px dotted #1b4f8c; }
 .table { overflow-x: auto; margin: 0.75rem 0 1.25rem; -webkit-overflow-scrolling: touch; }
 table { border-collapse: collapse; font-size: 0.9rem; }
 th, td { padding: 0.3rem 0.6rem; border-bottom: 1px solid #dedcd3; text-align: left; vertical-align: top; }
-th { background: #efede6; white-space: nowrap; }
-td code { white-space: nowrap; }
+th { background: #efede6; }
+td { min-width: 3em; }
 td.num, th.num { text-align: right; white-space: nowrap; font-variant-numeric: tabular-nums; }
 figure { margin: 1.5rem 0; }
 figure svg { display: block; width: 100%; height: auto; max-width: 40rem; background: #fff; }

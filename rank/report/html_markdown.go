@@ -302,7 +302,8 @@ func leadingEmphasis(s string) string {
 
 // svgInline prepares a figure's SVG document for inline use: without its
 // XML declaration and comments, scaled to the page width by CSS (the
-// viewBox keeps its proportions), labelled for screen readers.
+// viewBox keeps its proportions), labelled for screen readers, its text
+// in Liberation Serif or a metrically equal font.
 func svgInline(svg, alt string) string {
 	k := strings.Index(svg, "<svg")
 	if k < 0 {
@@ -313,7 +314,13 @@ func svgInline(svg, alt string) string {
 	open := svg[:end]
 	open = regexp.MustCompile(`\s(width|height)="[^"]*"`).ReplaceAllString(open, "")
 	open = strings.Join(strings.Fields(open), " ")
-	return open + ` role="img" aria-label="` + html.EscapeString(alt) + `">` + strings.TrimRight(svg[end+1:], "\n") + "\n"
+	body := strings.TrimRight(svg[end+1:], "\n")
+	// No tabs (gonum/plot indents attributes with them): the terminal
+	// writer would print them as escapes, breaking the markup. Fonts fall
+	// back to Times New Roman, which Liberation Serif matches metrically,
+	// so labels keep the widths the figure was laid out with.
+	body = strings.NewReplacer("\t", " ", "font-family:Liberation Serif;", "font-family:'Liberation Serif','Times New Roman',Times,serif;").Replace(body)
+	return open + ` role="img" aria-label="` + html.EscapeString(alt) + `">` + body + "\n"
 }
 
 // unescapeMD removes Markdown backslash escapes.

@@ -190,6 +190,12 @@ var nonFinite = regexp.MustCompile(`\b(NaN|[+-]?Inf)\b`)
 // printed as NaN or infinity.
 func checkHTML(t *testing.T, page []byte, r *rank.Result, files []string) {
 	t.Helper()
+	if k := bytes.IndexFunc(page, func(r rune) bool { return r < 0x20 && r != '\n' || r == 0x7f }); k >= 0 {
+		t.Errorf("page holds control character %q at byte %d (the terminal writer would escape it)", page[k], k)
+	}
+	if EscapeText(string(page)) != string(page) {
+		t.Error("page changes when written through the terminal's escaping (EscapeWriter, as --format html is)")
+	}
 	doc := parseHTML(t, page)
 	ids := map[string]int{}
 	var hrefs []string
