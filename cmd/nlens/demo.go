@@ -31,9 +31,9 @@ func newDemoCmd(e *env) *cobra.Command {
 demo runs nlens explain on an embedded example: an invented field
 experiment, with realistic numbers, made up for this demonstration. The same
 study is in testdata/demo/ of the source tree. It takes the flags of explain:
---format text or markdown for the e-mail summary or the full report, and
+--format text, markdown or html for the e-mail summary or the full report, and
 --out DIR to write the report with its references and figures.`),
-		Example: "  nlens demo\n  nlens demo --format text\n  nlens demo --out report/\n  nlens demo --format json",
+		Example: "  nlens demo\n  nlens demo --format text\n  nlens demo --format html > demo.html\n  nlens demo --out report/\n  nlens demo --format json",
 		Args:    cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, _ []string) error {
 			return wrapRun(func() error {
@@ -48,7 +48,7 @@ study is in testdata/demo/ of the source tree. It takes the flags of explain:
 				if opt.format == report.FormatTable {
 					fmt.Fprintf(e.stdout, "\nThis was the built-in demo (invented data).\nYour own study: nlens explain study.yaml\n")
 					if opt.out == "" {
-						fmt.Fprintf(e.stdout, "Full report (Markdown, BibTeX, figures): nlens demo --out report/\n")
+						fmt.Fprintf(e.stdout, "Full report (Markdown, HTML, BibTeX, figures): nlens demo --out report/\n")
 					}
 				}
 				return nil

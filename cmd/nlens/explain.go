@@ -46,8 +46,10 @@ the information they would give about which explanation holds.
 
 Formats: table (default, for a terminal), text (a plain-text summary to
 paste into an e-mail), markdown (the full report with a discussion draft,
-cautions, methods and references) and json (for scripts). --out DIR writes
-the full report into DIR: report.md, result.json, references.bib and the
+cautions, methods and references), html (the same report as one
+self-contained page with its figures, for a browser or to print) and json
+(for scripts). --out DIR writes the full report into DIR: report.md,
+report.html, result.json, references.bib and the
 figures as SVG and PNG; an existing non-empty DIR needs --force (your other
 files in it are kept). DIR is replaced whole, so it holds the previous
 report or the new one, never a mix, and a second run on the same DIR at the
@@ -55,6 +57,7 @@ same time is refused.`),
 		Example: strings.Trim(`
   nlens explain study.yaml
   nlens explain study.yaml --format text
+  nlens explain study.yaml --format html > report.html
   nlens explain study.yaml --out report/
   nlens explain study.yaml --format json --seed 7
   nlens explain study.yaml --draws 200 --model-error 0.3
@@ -72,8 +75,8 @@ same time is refused.`),
 
 func addExplainFlags(cmd *cobra.Command, opt *explainOptions) {
 	f := cmd.Flags()
-	f.StringVar(&opt.format, "format", report.FormatTable, "table, text, markdown or json")
-	f.StringVar(&opt.out, "out", "", "also write the full report (Markdown, JSON, BibTeX, figures) into this directory")
+	f.StringVar(&opt.format, "format", report.FormatTable, "table, text, markdown, html or json")
+	f.StringVar(&opt.out, "out", "", "also write the full report (Markdown, HTML, JSON, BibTeX, figures) into this directory")
 	f.BoolVar(&opt.force, "force", false, "with --out, replace the report files in a directory that is not empty")
 	f.Uint64Var(&opt.seed, "seed", rank.DefaultSeed, "random seed: the same seed gives the same output")
 	f.IntVar(&opt.draws, "draws", rank.DefaultDraws, "nuisance draws of isotope effects, source δ, rates and treatment sizes to start with; they double while the top posteriors' Monte Carlo error exceeds 0.02")

@@ -284,7 +284,8 @@ func globQuote(s string) string {
 var oldTempFile = regexp.MustCompile(`^\.(report\.md|result\.json|references\.bib|(shifts|trajectories|measurements)(-[0-9]+)?\.(svg|png))\.[0-9]+\.tmp$`)
 
 // Write renders the bundle of r and puts it in place of the folder's
-// contents: report.md (with figure links), result.json (as --format json),
+// contents: report.md (with figure links), report.html (the same report
+// as one self-contained page, figures inline), result.json (as --format json),
 // references.bib (exactly the works report.md cites) and each
 // comparison's figures as SVG and PNG. Everything is rendered in memory
 // first, so nothing is written if any rendering fails; with Force, files
@@ -428,6 +429,11 @@ func renderBundle(r *rank.Result, kb *knowledge.Base) (map[string][]byte, error)
 	files := map[string][]byte{}
 	md, refs := markdownReport(r, kb, MarkdownOptions{Figures: true})
 	files[BundleReport] = []byte(EscapeText(md))
+	page, err := htmlReport(r, kb, HTMLOptions{FigureFiles: true})
+	if err != nil {
+		return nil, fmt.Errorf("render %s: %w", BundleHTML, err)
+	}
+	files[BundleHTML] = page
 	var buf bytes.Buffer
 	if err := JSON(&buf, r); err != nil {
 		return nil, fmt.Errorf("render %s: %w", BundleResult, err)
@@ -511,7 +517,7 @@ var figureFile = regexp.MustCompile(`^(shifts|trajectories|measurements)(-[0-9]+
 // earlier bundle's file, not the user's).
 func bundleFile(name string) bool {
 	switch name {
-	case BundleReport, BundleResult, BundleReferences:
+	case BundleReport, BundleHTML, BundleResult, BundleReferences:
 		return true
 	}
 	return figureFile.MatchString(name) || oldTempFile.MatchString(name)

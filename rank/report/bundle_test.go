@@ -55,9 +55,9 @@ func TestWriteBundle(t *testing.T) {
 		r    *rank.Result
 		want string
 	}{
-		{"transient", transientResult(), "measurements.png measurements.svg references.bib report.md result.json shifts.png shifts.svg trajectories.png trajectories.svg"},
+		{"transient", transientResult(), "measurements.png measurements.svg references.bib report.html report.md result.json shifts.png shifts.svg trajectories.png trajectories.svg"},
 		// figurePlan of multiResult (see TestFigurePlan) plus the three documents.
-		{"multi", multiResult(), "measurements-1.png measurements-1.svg references.bib report.md result.json shifts-1.png shifts-1.svg shifts-2.png shifts-2.svg shifts-3.png shifts-3.svg trajectories-1.png trajectories-1.svg trajectories-2.png trajectories-2.svg"},
+		{"multi", multiResult(), "measurements-1.png measurements-1.svg references.bib report.html report.md result.json shifts-1.png shifts-1.svg shifts-2.png shifts-2.svg shifts-3.png shifts-3.svg trajectories-1.png trajectories-1.svg trajectories-2.png trajectories-2.svg"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			t.Parallel()
@@ -117,7 +117,7 @@ func TestWriteBundleForce(t *testing.T) {
 	if _, err := WriteBundle(dir, r, kb, BundleOptions{Force: true}); err != nil {
 		t.Fatal(err)
 	}
-	want := "measurements.png measurements.svg notes.txt references.bib report.md result.json shifts.png shifts.svg trajectories.png trajectories.svg"
+	want := "measurements.png measurements.svg notes.txt references.bib report.html report.md result.json shifts.png shifts.svg trajectories.png trajectories.svg"
 	if got := strings.Join(inputtest.ListDir(t, dir), " "); got != want {
 		t.Errorf("directory holds %s\nwant %s", got, want)
 	}

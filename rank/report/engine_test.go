@@ -46,8 +46,16 @@ groups:
 
 func engineResult(t *testing.T) *rank.Result {
 	t.Helper()
+	// 8 draws and a fixed seed keep the test fast; the renderers only need
+	// a real result's shape, not a precise one.
+	return explainStudy(t, "study.yaml", []byte(engineStudy), rank.Options{Seed: 3, Draws: 8, Version: "test"})
+}
+
+// explainStudy runs the ranking engine on a study file's text.
+func explainStudy(t *testing.T, path string, data []byte, opt rank.Options) *rank.Result {
+	t.Helper()
 	kb := testKB(t)
-	st, err := study.Parse("study.yaml", []byte(engineStudy), kb, study.Options{}, os.ReadFile)
+	st, err := study.Parse(path, data, kb, study.Options{}, os.ReadFile)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -55,9 +63,7 @@ func engineResult(t *testing.T) *rank.Result {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// 8 draws and a fixed seed keep the test fast; the renderers only need
-	// a real result's shape, not a precise one.
-	r, err := rank.Explain(context.Background(), st, kb, set, rank.Options{Seed: 3, Draws: 8, Version: "test"})
+	r, err := rank.Explain(context.Background(), st, kb, set, opt)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -16,7 +16,6 @@ import (
 	"gonum.org/v1/plot/vg/vgimg"
 	"gonum.org/v1/plot/vg/vgsvg"
 
-	"nlens/knowledge"
 	"nlens/rank"
 )
 
@@ -26,7 +25,9 @@ const (
 	// (mean ± sd) under each leading explanation, per observable.
 	FigureShifts = "shifts"
 	// FigureTrajectories: predicted shift of each observed observable over
-	// the years since the treatment began, with the observation marked.
+	// the years since the treatment began, median and 90 % band of
+	// posterior samples, with the treatment's start and the observations
+	// marked.
 	FigureTrajectories = "trajectories"
 	// FigureMeasurements: the top next measurements, predicted shift ± sd
 	// under each leading explanation.
@@ -121,11 +122,7 @@ func figurePlan(r *rank.Result) []figureSpec {
 			"Observed and predicted shifts, " + name,
 			"Observed shift (treatment − control, ± 1 SE) and the shift predicted under each leading explanation (posterior mean ± 1 sd), per observable."})
 		if len(pathsToDraw(c)) > 0 {
-			cap := "Predicted shift of each observed observable over the years since the treatment began under the leading explanations (best magnitudes, nominal site); the dotted line and the black point mark the observation (± 1 SE)."
-			if c.Years == nil {
-				cap = "Predicted approach of each observed observable to its new steady state under the leading explanations (best magnitudes, nominal site; logarithmic time axis); the observed long-standing contrast (± 1 SE) is shown at the right."
-			}
-			out = append(out, figureSpec{FigureTrajectories, i, FigureTrajectories + suffix, "Predicted trajectories, " + name, cap})
+			out = append(out, figureSpec{FigureTrajectories, i, FigureTrajectories + suffix, "Predicted trajectories, " + name, trajectoryCaption(c)})
 		}
 		if len(c.Measurements) > 0 {
 			out = append(out, figureSpec{FigureMeasurements, i, FigureMeasurements + suffix,
@@ -152,7 +149,7 @@ func Figure(w io.Writer, r *rank.Result, comparison int, kind, format string) er
 	case FigureShifts:
 		fig, err = shiftsFigure(c)
 	case FigureTrajectories:
-		fig, err = trajectoriesFigure(c)
+		fig, err = trajectoriesFigure(r, comparison)
 	case FigureMeasurements:
 		fig, err = measurementsFigure(c)
 	default:
@@ -402,269 +399,4 @@ func finiteAll(vs ...float64) bool {
 		}
 	}
 	return true
-}
-
-// shiftsFigure: observed against predicted shifts, one panel per unit.
-func shiftsFigure(c rank.ComparisonResult) (*figure, error) {
-	hs, styles, ranks := leadingStyles(c)
-	f := &figure{legend: newLegend()}
-	ob := observedStyle()
-	f.legend.Add(legendText(&f.legend, "observed shift ± 1 SE"), errThumb{style: ob})
-	for j, h := range hs {
-		f.legend.Add(legendText(&f.legend, candidateLegend(ranks[j], h)+" (mean ± 1 sd)"), errThumb{style: styles[j]})
-	}
-	for _, logRatio := range []bool{false, true} {
-		var rows []string
-		obs := series{label: "observed", style: ob}
-		preds := make([]series, len(hs))
-		for j := range hs {
-			preds[j].style = styles[j]
-		}
-		for _, o := range c.Observed {
-			if o.LogRatio != logRatio {
-				continue
-			}
-			row := float64(len(rows))
-			rows = append(rows, obsShort(o.Observable))
-			obs.at, obs.val, obs.err = append(obs.at, row), append(obs.val, o.Shift), append(obs.err, o.SE)
-			for j, h := range hs {
-				m, ok := h.Predicted[o.Observable]
-				if !ok {
-					continue
-				}
-				preds[j].at, preds[j].val, preds[j].err = append(preds[j].at, row), append(preds[j].val, m.Mean), append(preds[j].err, m.SD)
-			}
-		}
-		if len(rows) == 0 {
-			continue
-		}
-		xlabel := "shift, treatment − control (‰)"
-		title := "Observed and predicted shifts: " + plain(c.Name)
-		if logRatio {
-			xlabel = "shift, ln(treatment / control)"
-			title = "Pool sizes and fluxes: " + plain(c.Name)
-		}
-		p, h, err := dotPanel(title, xlabel, rows, append([]series{obs}, preds...))
-		if err != nil {
-			return nil, err
-		}
-		f.panels = append(f.panels, p)
-		f.heights = append(f.heights, h)
-	}
-	if len(f.panels) == 0 {
-		return nil, fmt.Errorf("no observed shift to draw")
-	}
-	return f, nil
-}
-
-// measurementsFigure: predicted shifts of the top next measurements.
-func measurementsFigure(c rank.ComparisonResult) (*figure, error) {
-	hs, styles, ranks := leadingStyles(c)
-	if len(c.Measurements) == 0 {
-		return nil, fmt.Errorf("no measurement to draw")
-	}
-	f := &figure{legend: newLegend()}
-	for j, h := range hs {
-		f.legend.Add(legendText(&f.legend, candidateLegend(ranks[j], h)+" (mean ± 1 sd)"), errThumb{style: styles[j]})
-	}
-	top := c.Measurements
-	if len(top) > maxMeasureRows {
-		top = top[:maxMeasureRows]
-	}
-	for _, logRatio := range []bool{false, true} {
-		var rows []string
-		preds := make([]series, len(hs))
-		for j := range hs {
-			preds[j].style = styles[j]
-		}
-		for _, m := range top {
-			if (m.Unit == knowledge.UnitLogRatio) != logRatio {
-				continue
-			}
-			row := float64(len(rows))
-			rows = append(rows, fmt.Sprintf("%s (%s bits)", m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64)))
-			for j, h := range hs {
-				p, ok := m.Predicted[h.ID]
-				if !ok {
-					continue
-				}
-				preds[j].at, preds[j].val, preds[j].err = append(preds[j].at, row), append(preds[j].val, p.Mean), append(preds[j].err, p.SD)
-			}
-		}
-		if len(rows) == 0 {
-			continue
-		}
-		xlabel := "predicted shift, treatment − control (‰)"
-		title := "Next measurements: " + plain(c.Name)
-		if logRatio {
-			xlabel = "predicted shift, ln(treatment / control)"
-			title = "Next measurements, pool sizes and fluxes: " + plain(c.Name)
-		}
-		p, h, err := dotPanel(title, xlabel, rows, preds)
-		if err != nil {
-			return nil, err
-		}
-		f.panels = append(f.panels, p)
-		f.heights = append(f.heights, h)
-	}
-	return f, nil
-}
-
-// pathsToDraw returns the paths of the comparison's leading hypotheses in
-// leading order, with their style index and rank.
-func pathsToDraw(c rank.ComparisonResult) []drawnPath {
-	hs, styles, ranks := leadingStyles(c)
-	var out []drawnPath
-	for j, h := range hs {
-		if h.ID == rank.NoneID {
-			continue
-		}
-		for _, p := range c.Paths {
-			if p.Hypothesis == h.ID && len(p.Years) > 1 {
-				out = append(out, drawnPath{path: p, h: h, style: styles[j], rank: ranks[j]})
-				break
-			}
-		}
-	}
-	return out
-}
-
-type drawnPath struct {
-	path  rank.Path
-	h     rank.Hypothesis
-	style style
-	rank  int
-}
-
-// trajectoriesFigure: one panel per observed observable, time on x.
-func trajectoriesFigure(c rank.ComparisonResult) (*figure, error) {
-	paths := pathsToDraw(c)
-	if len(paths) == 0 {
-		return nil, fmt.Errorf("no trajectory to draw")
-	}
-	logTime := c.Years == nil
-	f := &figure{legend: newLegend(), align: true}
-	ob := observedStyle()
-	obsLabel := fmt.Sprintf("observed shift ± 1 SE at %s years", trimFloat(derefOr(c.Years, 0)))
-	if logTime {
-		obsLabel = "observed long-standing contrast ± 1 SE (shown at the right)"
-	}
-	f.legend.Add(legendText(&f.legend, obsLabel), errThumb{style: ob})
-	for _, dp := range paths {
-		f.legend.Add(legendText(&f.legend, candidateLegend(dp.rank, dp.h)), errThumb{style: style{color: dp.style.color, dash: dp.style.dash}, line: true})
-	}
-	// The time axis: on a log axis only positive times can be drawn.
-	tmin, tmax := math.Inf(1), math.Inf(-1)
-	for _, dp := range paths {
-		for _, t := range dp.path.Years {
-			if t > 0 || !logTime {
-				tmin, tmax = math.Min(tmin, t), math.Max(tmax, t)
-			}
-		}
-	}
-	if !(tmax > tmin) {
-		return nil, fmt.Errorf("the trajectories span no time")
-	}
-	tObs := tmax
-	if c.Years != nil {
-		tObs = *c.Years
-	}
-	for i, o := range c.Observed {
-		p := plot.New()
-		p.Title.Text = titleText(p, obsShort(o.Observable)+": "+plain(c.Name))
-		p.Title.TextStyle.Font.Size = vg.Points(11)
-		unit := "shift (‰)"
-		if o.LogRatio {
-			unit = "shift (ln ratio)"
-		}
-		p.Y.Label.Text = unit
-		if i == len(c.Observed)-1 {
-			p.X.Label.Text = "years since the treatment began"
-			if logTime {
-				p.X.Label.Text = "years since the change began (log scale)"
-			}
-		}
-		if logTime {
-			p.X.Scale = plot.LogScale{}
-			p.X.Tick.Marker = plot.LogTicks{Prec: -1}
-		}
-		ylo, yhi := math.Min(0, o.Shift-o.SE), math.Max(0, o.Shift+o.SE)
-		for _, dp := range paths {
-			vals := dp.path.Shifts[o.Observable]
-			var xy plotter.XYs
-			for k, t := range dp.path.Years {
-				if k >= len(vals) || (logTime && !(t > 0)) || !finiteAll(t, vals[k]) {
-					continue
-				}
-				xy = append(xy, plotter.XY{X: t, Y: vals[k]})
-				ylo, yhi = math.Min(ylo, vals[k]), math.Max(yhi, vals[k])
-			}
-			if len(xy) < 2 {
-				continue
-			}
-			l, err := plotter.NewLine(xy)
-			if err != nil {
-				return nil, err
-			}
-			l.LineStyle = dp.style.line(1.6)
-			p.Add(l)
-		}
-		zero, err := plotter.NewLine(plotter.XYs{{X: tmin, Y: 0}, {X: tmax, Y: 0}})
-		if err != nil {
-			return nil, err
-		}
-		zero.LineStyle = draw.LineStyle{Color: referenceColor, Width: vg.Points(0.8), Dashes: []vg.Length{vg.Points(3), vg.Points(3)}}
-		p.Add(zero)
-		if !logTime {
-			mark, err := plotter.NewLine(plotter.XYs{{X: tObs, Y: ylo}, {X: tObs, Y: yhi}})
-			if err != nil {
-				return nil, err
-			}
-			mark.LineStyle = draw.LineStyle{Color: referenceColor, Width: vg.Points(0.8), Dashes: []vg.Length{vg.Points(1), vg.Points(2)}}
-			p.Add(mark)
-		}
-		if finiteAll(o.Shift, o.SE) {
-			pts := yErrPoints{XYs: plotter.XYs{{X: tObs, Y: o.Shift}}, YErrors: plotter.YErrors{{Low: o.SE, High: o.SE}}}
-			eb, err := plotter.NewYErrorBars(pts)
-			if err != nil {
-				return nil, err
-			}
-			eb.LineStyle = draw.LineStyle{Color: ob.color, Width: vg.Points(1)}
-			eb.CapWidth = vg.Points(5)
-			sc, err := plotter.NewScatter(pts.XYs)
-			if err != nil {
-				return nil, err
-			}
-			sc.GlyphStyle = ob.glyph()
-			p.Add(eb, sc)
-		}
-		if logTime {
-			// Room for the observed point's caps at the right edge.
-			p.X.Max *= 1.6
-		} else {
-			padLinear(&p.X, 0.03)
-		}
-		padLinear(&p.Y, 0.05)
-		f.panels = append(f.panels, p)
-		f.heights = append(f.heights, vg.Points(trajPanelPt))
-	}
-	return f, nil
-}
-
-// padLinear widens a linear axis by a fraction of its span on each side,
-// so that markers and error-bar caps at the data's edge are drawn whole.
-func padLinear(a *plot.Axis, frac float64) {
-	span := a.Max - a.Min
-	if !(span > 0) {
-		span = math.Max(math.Abs(a.Max), 1)
-	}
-	a.Min -= frac * span
-	a.Max += frac * span
-}
-
-func derefOr(p *float64, v float64) float64 {
-	if p == nil {
-		return v
-	}
-	return *p
 }

@@ -92,6 +92,19 @@ func method(draws int) rank.Method {
 		SamplesPerLeading: 32, OutcomeGridStep: 0.25}
 }
 
+// withBand gives a fixture path a band of ±frac of its median's size.
+func withBand(p rank.Path, frac float64) rank.Path {
+	p.Low, p.High = map[string][]float64{}, map[string][]float64{}
+	for o, med := range p.Shifts {
+		lo, hi := make([]float64, len(med)), make([]float64, len(med))
+		for i, v := range med {
+			lo[i], hi[i] = v-frac*math.Abs(v), v+frac*math.Abs(v)
+		}
+		p.Low[o], p.High[o] = lo, hi
+	}
+	return p
+}
+
 // evenYears is 0, step, …, (n−1)·step.
 func evenYears(n int, step float64) []float64 {
 	out := make([]float64, n)
@@ -174,11 +187,14 @@ func transientResult() *rank.Result {
 					Method: "denitrifier method", NoiseSD: 2,
 					Predicted: map[string]rank.Moments{"nitrification": mo(-1, 3), "nitrification+denitrification": mo(1.5, 4), "source:wastewater": mo(-2.3, 2.6), "none": mo(0, 2)}},
 			},
+			// Paths with a 90 % band of ±25 % around the median, and the
+			// treatment's start marked (invented, like every number here).
 			Paths: []rank.Path{
-				{Hypothesis: "nitrification", Years: years, Shifts: map[string][]float64{"foliage": approach(years, 1.4, 1.1), "soil": approach(years, 0.05, 20), "soil-nitrate": approach(years, 6.0, 0.2)}},
-				{Hypothesis: "nitrification+denitrification", Years: years, Shifts: map[string][]float64{"foliage": approach(years, 1.7, 1.3), "soil": approach(years, 0.08, 25), "soil-nitrate": approach(years, 6.5, 0.2)}},
-				{Hypothesis: "source:wastewater", Years: years, Shifts: map[string][]float64{"foliage": approach(years, 1.3, 1.5), "soil": approach(years, 0.04, 30), "soil-nitrate": approach(years, 6.8, 0.3)}},
+				withBand(rank.Path{Hypothesis: nitr.ID, Years: years, Shifts: map[string][]float64{"foliage": approach(years, 1.4, 1.1), "soil": approach(years, 0.05, 20), "soil-nitrate": approach(years, 6.0, 0.2)}}, 0.25),
+				withBand(rank.Path{Hypothesis: pair.ID, Years: years, Shifts: map[string][]float64{"foliage": approach(years, 1.7, 1.3), "soil": approach(years, 0.08, 25), "soil-nitrate": approach(years, 6.5, 0.2)}}, 0.25),
+				withBand(rank.Path{Hypothesis: waste.ID, Years: years, Shifts: map[string][]float64{"foliage": approach(years, 1.3, 1.5), "soil": approach(years, 0.04, 30), "soil-nitrate": approach(years, 6.8, 0.3)}}, 0.25),
 			},
+			Timeline:          []rank.Event{{Years: 0, Label: "treatment begins"}},
 			ReplicatesAssumed: 6,
 		}},
 	}
