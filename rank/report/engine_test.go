@@ -48,11 +48,11 @@ func engineResult(t *testing.T) *rank.Result {
 	t.Helper()
 	// 8 draws and a fixed seed keep the test fast; the renderers only need
 	// a real result's shape, not a precise one.
-	return explainStudy(t, "study.yaml", []byte(engineStudy), rank.Options{Seed: 3, Draws: 8, Version: "test"})
+	return explainStudyData(t, "study.yaml", []byte(engineStudy), rank.Options{Seed: 3, Draws: 8, Version: "test"})
 }
 
 // explainStudy runs the ranking engine on a study file's text.
-func explainStudy(t *testing.T, path string, data []byte, opt rank.Options) *rank.Result {
+func explainStudyData(t *testing.T, path string, data []byte, opt rank.Options) *rank.Result {
 	t.Helper()
 	kb := testKB(t)
 	st, err := study.Parse(path, data, kb, study.Options{}, os.ReadFile)

@@ -368,8 +368,10 @@ func trajectoryCaption(c rank.ComparisonResult) string {
 	}
 	b.WriteString("Predicted shift of each observed observable over the years since the treatment began under the leading explanations: the line is the median and the shaded band the 5–95 % range of posterior samples of the magnitudes, isotope effects, site rates and treatment sizes. ")
 	if len(c.Timeline) > 0 {
-		b.WriteString("The dash-dotted line marks the treatment's start (and the end of any time-limited part); ")
+		b.WriteString("The dash-dotted line marks the treatment's start (and the end of any time-limited part); black points are ")
+	} else {
+		b.WriteString("Black points are ")
 	}
-	b.WriteString("black points are the observations (± 1 SE) at their years, on dotted lines.")
+	b.WriteString("the observations (± 1 SE) at their years, on dotted lines.")
 	return b.String()
 }

@@ -14,13 +14,15 @@ import (
 //   - 0.33 sd: three Monte Carlo standard errors of a median from 128
 //     posterior samples (1.2533·sd/√128 = 0.11 sd for a normal spread,
 //     the asymptotic variance of the sample median);
-//   - 0.07 sd for the gap between the median (drawn) and the mean (in the
-//     tables) of a moderately skewed posterior;
+//   - up to 1 sd for the gap between the median (drawn) and the mean (in
+//     the tables): |mean − median| ≤ sd for any distribution (Hotelling &
+//     Solomons 1932, Ann. Math. Stat. 3:141), and a pulse's posterior is
+//     skewed enough to use much of it; 0.67 sd of it is allowed here;
 //   - 0.05 (‰ or ln ratio): the tables' predictions are splines over the
 //     magnitude grid, the paths exact forward runs (DEVELOPERS.md: the
 //     spline is within 0.07 ‰ on three sites, mostly far less).
 const (
-	trajMedianTolSD  = 0.4
+	trajMedianTolSD  = 1.0
 	trajMedianTolAbs = 0.05
 )
 
@@ -120,7 +122,7 @@ groups:
 
 func seriesResult(t *testing.T) *rank.Result {
 	t.Helper()
-	return explainStudy(t, "study.yaml", []byte(seriesStudy), rank.Options{Seed: 3, Draws: 8, Version: "test"})
+	return explainStudyData(t, "study.yaml", []byte(seriesStudy), rank.Options{Seed: 3, Draws: 8, Version: "test"})
 }
 
 // TestTrajectorySeriesObservations: in a series of years each

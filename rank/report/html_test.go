@@ -32,7 +32,7 @@ func demoResult(t *testing.T) *rank.Result {
 	if err != nil {
 		t.Fatal(err)
 	}
-	r := explainStudy(t, path, data, rank.Options{Seed: rank.DefaultSeed, Draws: rank.DefaultDraws,
+	r := explainStudyData(t, path, data, rank.Options{Seed: rank.DefaultSeed, Draws: rank.DefaultDraws,
 		MaxDraws: rank.DefaultMaxDraws, ModelError: rank.DefaultModelError, Version: "test"})
 	r.StudyFile, r.Demo = "demo/study.yaml", true
 	return r
