@@ -796,15 +796,29 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress) ([]ComparisonResult, *SeriesResult, error) {
 	kb := e.kb
 	sorted, joint, sortedMoments, leading, noFit, ruledOut := sc.sorted, sc.joint, sc.sortedMoments, sc.leading, sc.noFit, sc.ruledOut
+	// Warnings of the whole unit, and each part's own; a comparison of a
+	// series carries its own, the series all of them.
 	warnings := append(slices.Clone(e.warnings), sc.warnings...)
-	warnf := func(format string, args ...any) { warnings = append(warnings, fmt.Sprintf(format, args...)) }
-	for _, p := range e.parts {
+	// (The shifts-only note is said once for a series.)
+	own := make([][]string, len(e.parts))
+	var shiftsOnly []string
+	for pi, p := range e.parts {
 		if p.cmp.Steady {
-			warnf("%s", steadyWarning(e, p))
+			own[pi] = append(own[pi], steadyWarning(e, p))
 		}
 		if p.cmp.ShiftsOnly {
-			warnf("the shifts of %q came from a paper without group levels: the model's baseline could not be compared with a control, so the nuisance draws are unweighted", p.cmp.Name)
+			shiftsOnly = append(shiftsOnly, fmt.Sprintf("%q", p.cmp.Name))
 		}
+	}
+	shiftsNote := func(names []string) string {
+		return fmt.Sprintf("the shifts of %s came from a paper without group levels: the model's baseline could not be compared with a control, so the nuisance draws are unweighted", joinAnd(names))
+	}
+	all := slices.Clone(warnings)
+	for pi := range e.parts {
+		all = append(all, own[pi]...)
+	}
+	if len(shiftsOnly) > 0 {
+		all = append(all, shiftsNote(shiftsOnly))
 	}
 
 	// One result per member comparison: the joint ranking with the member's
@@ -833,7 +847,14 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 		}
 		cr.Paths = e.paths(&cr, sorted, leading, pi)
 		cr.Timeline = e.timeline(pi)
-		cr.Warnings = slices.Clone(warnings)
+		if u.series == "" {
+			cr.Warnings = append(slices.Clone(warnings), own[pi]...)
+			if pt.cmp.ShiftsOnly {
+				cr.Warnings = append(cr.Warnings, shiftsNote([]string{fmt.Sprintf("%q", pt.cmp.Name)}))
+			}
+		} else {
+			cr.Warnings = slices.Clone(own[pi])
+		}
 		out = append(out, cr)
 	}
 	prog.add(4)
@@ -848,7 +869,7 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 	if u.series == "" {
 		return out, nil, nil
 	}
-	sr := &SeriesResult{Name: u.series, Kind: "years", NoFit: noFit, Warnings: slices.Clone(warnings)}
+	sr := &SeriesResult{Name: u.series, Kind: "years", NoFit: noFit, Warnings: all}
 	for _, p := range e.parts {
 		sr.Comparisons = append(sr.Comparisons, p.cmp.Name)
 		if p.scale != 1 {
@@ -865,8 +886,17 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 		h.Magnitudes = out[len(out)-1].Hypotheses[i].Magnitudes
 		sr.Hypotheses = append(sr.Hypotheses, h)
 	}
-	last := out[len(out)-1]
-	sr.Measurements, sr.Leading = last.Measurements, last.Leading
+	// The series' next measurements are those of the member where the
+	// best one tells most (a recovering disturbance says little by its
+	// last year; archived samples of an earlier year can still be
+	// measured).
+	best := len(out) - 1
+	for k := range out {
+		if len(out[k].Measurements) > 0 && (len(out[best].Measurements) == 0 || out[k].Measurements[0].Bits > out[best].Measurements[0].Bits+bitsTie) {
+			best = k
+		}
+	}
+	sr.Measurements, sr.Leading, sr.MeasurementsAt = out[best].Measurements, out[best].Leading, out[best].Name
 	return out, sr, nil
 }
 
@@ -1099,4 +1129,12 @@ func uniq(s []string) []string {
 		}
 	}
 	return out
+}
+
+// joinAnd joins items as "a, b and c".
+func joinAnd(items []string) string {
+	if len(items) < 2 {
+		return strings.Join(items, "")
+	}
+	return strings.Join(items[:len(items)-1], ", ") + " and " + items[len(items)-1]
 }

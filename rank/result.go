@@ -39,11 +39,14 @@ type SeriesResult struct {
 	Kind string
 	// Hypotheses sorted by joint posterior; Predicted keyed
 	// "comparison/observable".
-	Hypotheses   []Hypothesis
-	Measurements []Measurement
-	Leading      []string
-	Warnings     []string
-	NoFit        bool
+	Hypotheses []Hypothesis
+	// Measurements are those of the member comparison MeasurementsAt,
+	// where the best measurement tells most (ties go to the latest).
+	Measurements   []Measurement
+	MeasurementsAt string
+	Leading        []string
+	Warnings       []string
+	NoFit          bool
 }
 
 // Method records the settings a reader needs to reproduce a run.
@@ -88,8 +91,11 @@ type ComparisonResult struct {
 	FittedSite *SiteFit
 	// Hypotheses sorted by posterior, highest first.
 	Hypotheses []Hypothesis
-	// Measurements sorted by information gain, highest first.
-	Measurements []Measurement
+	// Measurements sorted by information gain, highest first;
+	// MeasurementsAt names the comparison they were scored at where that
+	// is not this one (a series' view of its members).
+	Measurements   []Measurement
+	MeasurementsAt string
 	// Leading are the hypothesis ids the measurements were scored against.
 	Leading []string
 	// Paths are predicted shift trajectories of the observed observables

@@ -37,7 +37,10 @@ type SeriesJSON struct {
 	Comparisons     []string          `json:"comparisons"`
 	Hypotheses      []HypothesisJSON  `json:"hypotheses"`
 	Measurements    []MeasurementJSON `json:"measurements"`
-	Warnings        []string          `json:"warnings"`
+	// MeasurementsAt is the member comparison the measurements were
+	// scored at: where the best one tells most.
+	MeasurementsAt string   `json:"measurements_at"`
+	Warnings       []string `json:"warnings"`
 }
 
 // ComparisonJSON is one comparison's result.
@@ -205,7 +208,7 @@ func ToJSON(r *rank.Result) ExplainJSON {
 		out.Comparisons = append(out.Comparisons, cj)
 	}
 	for _, sr := range r.Series {
-		sj := SeriesJSON{Name: sr.Name, NoCandidateFits: sr.NoFit, Kind: sr.Kind, Comparisons: sr.Comparisons, Hypotheses: []HypothesisJSON{}, Measurements: measurementsJSON(sr.Measurements), Warnings: append([]string{}, sr.Warnings...)}
+		sj := SeriesJSON{Name: sr.Name, NoCandidateFits: sr.NoFit, Kind: sr.Kind, Comparisons: sr.Comparisons, Hypotheses: []HypothesisJSON{}, Measurements: measurementsJSON(sr.Measurements), MeasurementsAt: sr.MeasurementsAt, Warnings: append([]string{}, sr.Warnings...)}
 		for _, h := range sr.Hypotheses {
 			sj.Hypotheses = append(sj.Hypotheses, hypothesisJSON(h))
 		}

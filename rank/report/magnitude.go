@@ -136,6 +136,9 @@ func MagnitudeText(h rank.Hypothesis) string {
 	for _, m := range h.Magnitudes {
 		parts = append(parts, magnitudeWords{m}.short())
 	}
+	if d := h.Duration; d != nil {
+		parts = append(parts, "lasting "+trimFloat(roundYears(d.Best))+" y ("+trimFloat(roundYears(d.Low))+"–"+trimFloat(roundYears(d.High))+" y)")
+	}
 	return strings.Join(parts, "; ")
 }
 

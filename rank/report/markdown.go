@@ -82,7 +82,24 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 
 	plan := figurePlan(r)
 	for i, c := range r.Comparisons {
-		comparisonSection(&b, i, c, kb, ci, opt, plan)
+		sr, last := seriesOf(r, c)
+		if sr == nil {
+			comparisonSection(&b, i, c, kb, ci, opt, plan)
+			continue
+		}
+		// A member of a series: its observations, figures and own
+		// warnings; the joint ranking once, after the last member.
+		comparisonHead(&b, c)
+		fmt.Fprintf(&b, "Part of %s; the ranking is given once for the series below.\n\n", mdEscape(seriesHeading(sr)))
+		comparisonFigures(&b, i, opt, plan)
+		markdownWarnings(&b, c.Warnings)
+		if last {
+			view := seriesAsComparison(r, sr)
+			fmt.Fprintf(&b, "## Series: %s\n\n", mdEscape(plain(sr.Name)))
+			fmt.Fprintf(&b, "%s. Observables are named by comparison (“comparison/observable”).\n\n", mdEscape(capitalize(seriesHeading(sr))))
+			rankingSection(&b, view, kb, ci, opt)
+			markdownWarnings(&b, view.Warnings)
+		}
 	}
 
 	b.WriteString("## Discussion draft\n\n")
@@ -102,12 +119,23 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 
 // comparisonSection writes the tables and notes of one comparison.
 func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb *knowledge.Base, ci citer, opt MarkdownOptions, plan []figureSpec) {
-	n := newNamer(kb, c)
+	comparisonHead(b, c)
+	rankingSection(b, c, kb, ci, opt)
+	comparisonFigures(b, idx, opt, plan)
+	markdownWarnings(b, c.Warnings)
+}
+
+// comparisonHead writes a comparison's heading and observed shifts.
+func comparisonHead(b *strings.Builder, c rank.ComparisonResult) {
 	fmt.Fprintf(b, "## Comparison: %s\n\n", mdEscape(plain(c.Name)))
 	fmt.Fprintf(b, "%s.\n\n", capitalize(when(c.Years)))
 
 	b.WriteString("### Observed shifts\n\n")
-	b.WriteString("Treatment minus control; δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); SE is Welch's standard error of the difference.\n\n")
+	if c.ShiftsOnly {
+		b.WriteString("Treatment minus control as given (from a paper, without group levels); δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control).\n\n")
+	} else {
+		b.WriteString("Treatment minus control; δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); SE is Welch's standard error of the difference.\n\n")
+	}
 	var rows [][]string
 	for _, o := range c.Observed {
 		dec := 2
@@ -117,13 +145,22 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 			dec, unit = 3, "ln ratio"
 			ctl, trt = num(o.Control.Mean), num(o.Treatment.Mean)
 		}
-		rows = append(rows, []string{o.Observable, ctl, trt, plusSigned(o.Shift, dec), signed(o.SE, dec), unit,
-			fmt.Sprintf("%d / %d", o.Control.N, o.Treatment.N)})
+		ns := fmt.Sprintf("%d / %d", o.Control.N, o.Treatment.N)
+		if o.NoLevels() {
+			ctl, trt, ns = "—", "—", "—" // a shift as given in a paper
+		}
+		rows = append(rows, []string{o.Observable, ctl, trt, plusSigned(o.Shift, dec), signed(o.SE, dec), unit, ns})
 	}
 	writeTable(b, []string{"observable", "control", "treatment", "shift", "SE", "unit", "n (control / treatment)"}, "lrrrrlr", rows)
+}
 
+// rankingSection writes the explanations, predictions and next
+// measurements of a comparison or of a series' joint view.
+func rankingSection(b *strings.Builder, c rank.ComparisonResult, kb *knowledge.Base, ci citer, opt MarkdownOptions) {
+	n := newNamer(kb, c)
+	var rows [][]string
 	b.WriteString("### Explanations\n\n")
-	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: best value with its 90 % credible interval. Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
+	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: posterior median with its 90 % credible interval; “was” is the baseline. Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
 	rows = rows[:0]
 	for i, h := range c.Hypotheses {
 		if i >= opt.MaxHypotheses {
@@ -174,7 +211,11 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 	if len(c.Measurements) == 0 {
 		b.WriteString("No catalogue measurement is left that the study has not already made.\n\n")
 	} else {
-		b.WriteString("Ranked by expected information gain: how much, on average, the measurement would tell about which explanation holds, in bits (1 bit settles an even two-way choice).\n\n")
+		b.WriteString("Ranked by expected information gain: how much, on average, the measurement would tell about which explanation holds, in bits (1 bit settles an even two-way choice); within 0.1 bit of each other the cheaper comes first.")
+		if c.MeasurementsAt != "" {
+			fmt.Fprintf(b, " Scored as at %s, where a measurement tells most (archived samples of that time, or the same design elsewhere).", mdEscape(quoteName(c.MeasurementsAt)))
+		}
+		b.WriteString("\n\n")
 		rows = rows[:0]
 		for i, m := range c.Measurements {
 			if i >= opt.MaxMeasurements {
@@ -199,6 +240,10 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 		}
 	}
 
+}
+
+// comparisonFigures writes the figures of comparison idx.
+func comparisonFigures(b *strings.Builder, idx int, opt MarkdownOptions, plan []figureSpec) {
 	if opt.Figures {
 		var figs []figureSpec
 		for _, f := range plan {
@@ -213,9 +258,13 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 			}
 		}
 	}
-	if len(c.Warnings) > 0 {
+}
+
+// markdownWarnings writes a warnings list (nothing when empty).
+func markdownWarnings(b *strings.Builder, warnings []string) {
+	if len(warnings) > 0 {
 		b.WriteString("### Warnings\n\n")
-		for _, w := range c.Warnings {
+		for _, w := range warnings {
 			b.WriteString("- " + mdEscape(plain(w)) + "\n")
 		}
 		b.WriteString("\n")

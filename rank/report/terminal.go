@@ -1,6 +1,7 @@
 package report
 
 import (
+	"fmt"
 	"io"
 	"strconv"
 	"strings"
@@ -45,55 +46,82 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 		if err := observedTable(ew, c.Observed); err != nil {
 			return err
 		}
-		ew.printf("\nExplanations, most probable first\n")
-		var rows [][]string
-		for i, h := range c.Hypotheses {
-			if i >= opt.MaxHypotheses {
-				break
+		if sr, last := seriesOf(r, c); sr != nil {
+			// A member of a series: the joint ranking comes once, after
+			// the series' last comparison.
+			ew.printf("\n%s\n", wrap("Part of "+seriesHeading(sr)+"; the ranking is the series'.", 78))
+			for _, wm := range c.Warnings {
+				ew.printf("\n%s\n", wrap("warning: "+wm, 78))
 			}
-			post := posteriorCell(c, h)
-			rows = append(rows, []string{strconv.Itoa(i + 1), shortLabel(h), post, MagnitudeText(h), fmtP(h.Fit.P)})
-		}
-		if err := wrappedTable(ew, []string{"#", "explanation", "posterior", "magnitude (90 %)", "fit p"}, "rlrlr", rows, []int{0, 30, 0, 24, 0}); err != nil {
-			return err
-		}
-		if n := len(c.Hypotheses) - opt.MaxHypotheses; n > 0 {
-			ew.printf("(%d more in --format json)\n", n)
-		}
-		ew.printf("%s\n", wrap(tableLegend(c), 78))
-		lead := leadingIndex(c)
-		if len(lead) > 0 {
-			ew.printf("\nPredicted shifts under the leading explanations (mean ± sd)\n")
-			headers, rows := predictionTable(c, lead, 1)
-			if err := table(ew, headers, "l"+strings.Repeat("r", len(headers)-1), rows); err != nil {
-				return err
-			}
-		}
-		if len(c.Measurements) > 0 {
-			ew.printf("\nNext measurements (expected information about which explanation holds)\n")
-			rows = rows[:0]
-			for i, m := range c.Measurements {
-				if i >= opt.MaxMeasurements {
-					break
+			if last {
+				ew.printf("\n== %s\n", wrap(seriesHeading(sr), 75))
+				if err := rankingTables(ew, seriesAsComparison(r, sr), opt); err != nil {
+					return err
 				}
-				rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost), m.Method})
 			}
-			if err := wrappedTable(ew, []string{"#", "measurement", "bits", "cost", "method"}, "rlrll", rows, []int{0, 22, 0, 0, 30}); err != nil {
-				return err
-			}
-			ew.printf("\nPredicted shift of each under the leading explanations (mean ± sd with noise)\n")
-			headers, rows := measurementTable(c, lead, opt.MaxMeasurements, true)
-			if err := table(ew, headers, "l"+strings.Repeat("r", len(headers)-1), rows); err != nil {
-				return err
-			}
-			ew.printf("(shifts in ‰; pools and fluxes as ln ratio; %d replicates per group assumed)\n", c.ReplicatesAssumed)
+			continue
 		}
-		for _, wm := range c.Warnings {
-			ew.printf("\n%s\n", wrap("warning: "+wm, 78))
+		if err := rankingTables(ew, c, opt); err != nil {
+			return err
 		}
 	}
 	ew.printf("\n%s\n", wrap("Cautions: "+strings.Join(shortCautions, " "), 78))
 	return ew.err
+}
+
+// rankingTables writes a comparison's (or a series') ranking: the
+// explanations, predicted shifts, next measurements and warnings.
+func rankingTables(ew *errWriter, c rank.ComparisonResult, opt ExplainOptions) error {
+	ew.printf("\nExplanations, most probable first\n")
+	var rows [][]string
+	for i, h := range c.Hypotheses {
+		if i >= opt.MaxHypotheses {
+			break
+		}
+		post := posteriorCell(c, h)
+		rows = append(rows, []string{strconv.Itoa(i + 1), shortLabel(h), post, MagnitudeText(h), fmtP(h.Fit.P)})
+	}
+	if err := wrappedTable(ew, []string{"#", "explanation", "posterior", "magnitude (90 %)", "fit p"}, "rlrlr", rows, []int{0, 30, 0, 24, 0}); err != nil {
+		return err
+	}
+	if n := len(c.Hypotheses) - opt.MaxHypotheses; n > 0 {
+		ew.printf("(%d more in --format json)\n", n)
+	}
+	ew.printf("%s\n", wrap(tableLegend(c), 78))
+	lead := leadingIndex(c)
+	if len(lead) > 0 {
+		ew.printf("\nPredicted shifts under the leading explanations (mean ± sd)\n")
+		headers, rows := predictionTable(c, lead, 1)
+		if err := table(ew, headers, "l"+strings.Repeat("r", len(headers)-1), rows); err != nil {
+			return err
+		}
+	}
+	if len(c.Measurements) > 0 {
+		ew.printf("\nNext measurements (expected information about which explanation holds;\nwithin 0.1 bit of each other the cheaper first)\n")
+		if c.MeasurementsAt != "" {
+			ew.printf("%s\n", wrap(fmt.Sprintf("(as at %s, where a measurement tells most: archived samples of that time, or the same design elsewhere)", quoteName(c.MeasurementsAt)), 78))
+		}
+		rows = rows[:0]
+		for i, m := range c.Measurements {
+			if i >= opt.MaxMeasurements {
+				break
+			}
+			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost), m.Method})
+		}
+		if err := wrappedTable(ew, []string{"#", "measurement", "bits", "cost", "method"}, "rlrll", rows, []int{0, 22, 0, 0, 30}); err != nil {
+			return err
+		}
+		ew.printf("\nPredicted shift of each under the leading explanations (mean ± sd with noise)\n")
+		headers, rows := measurementTable(c, lead, opt.MaxMeasurements, true)
+		if err := table(ew, headers, "l"+strings.Repeat("r", len(headers)-1), rows); err != nil {
+			return err
+		}
+		ew.printf("(shifts in ‰; pools and fluxes as ln ratio; %d replicates per group assumed)\n", c.ReplicatesAssumed)
+	}
+	for _, wm := range c.Warnings {
+		ew.printf("\n%s\n", wrap("warning: "+wm, 78))
+	}
+	return nil
 }
 
 // tableLegend explains the columns of the explanations table: the
