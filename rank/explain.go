@@ -718,12 +718,12 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 			hyps[0].Posterior += hyps[i].Posterior
 			hyps[i].Posterior = 0
 			if !hyps[i].Pair && !entries[i].pulse {
-				quiet = append(quiet, hyps[i].ID)
+				quiet = append(quiet, hyps[i].Label) // words, not ids: the warning is read by people
 			}
 		}
 	}
 	if len(quiet) > 0 {
-		sc.warnf("%s would not move the observed quantities beyond their standard error from what %s predicts anywhere in %s prior range, so the data cannot speak to %s; %s counted with %q", strings.Join(quiet, ", "), hyps[0].Label, map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1], hyps[0].Label)
+		sc.warnf("%s would not move the observed quantities beyond their standard error from what %s predicts anywhere in %s prior range, so the data cannot speak to %s; %s counted with %q", joinLabels(quiet), hyps[0].Label, map[bool]string{true: "its", false: "their"}[len(quiet) == 1], map[bool]string{true: "it", false: "them"}[len(quiet) == 1], map[bool]string{true: "it is", false: "they are"}[len(quiet) == 1], hyps[0].Label)
 	}
 	// Monte Carlo error of each posterior: dlog p_H = (1 − p_H)·dlog Z_H −
 	// Σ_{k≠H} p_k·dlog Z_k, with the relative variances of the evidences
@@ -1091,4 +1091,12 @@ func uniq(s []string) []string {
 		}
 	}
 	return out
+}
+
+// joinLabels joins labels as "a, b and c".
+func joinLabels(s []string) string {
+	if len(s) < 2 {
+		return strings.Join(s, "")
+	}
+	return strings.Join(s[:len(s)-1], ", ") + " and " + s[len(s)-1]
 }
