@@ -41,7 +41,11 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 		ew.printf("\n%s\n", wrap("WARNING: "+s, 78))
 	}
 	for _, c := range r.Comparisons {
-		ew.printf("\n== %s (%s)\n\nObserved shifts (treatment − control)\n", c.Name, when(c.Years))
+		ew.printf("\n== %s (%s)\n", c.Name, when(c.Years))
+		if tw := treatmentWords(c.Treatment); tw != "" {
+			ew.printf("%s\n", wrap("treatment applied in every explanation: "+tw, 78))
+		}
+		ew.printf("\nObserved shifts (treatment − control)\n")
 		if err := observedTable(ew, c.Observed); err != nil {
 			return err
 		}
