@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"io"
 	"slices"
-	"strconv"
 	"strings"
 
 	"nlens/forward"
@@ -75,7 +74,7 @@ func fmtRange(r []float64) string {
 	if len(r) != 2 {
 		return ""
 	}
-	return fmt.Sprintf("%s to %s", strconv.FormatFloat(r[0], 'g', 4, 64), strconv.FormatFloat(r[1], 'g', 4, 64))
+	return fmt.Sprintf("%s to %s", sigG(r[0], 4), sigG(r[1], 4))
 }
 
 func effectsTable(w io.Writer, kb *knowledge.Base) error {
@@ -85,7 +84,7 @@ func effectsTable(w io.Writer, kb *knowledge.Base) error {
 	for _, e := range kb.Effects {
 		ratio := ""
 		if e.D18ORatio != nil {
-			ratio = strconv.FormatFloat(*e.D18ORatio, 'g', 3, 64)
+			ratio = sigG(*e.D18ORatio, 3)
 		}
 		src := cites(kb, e.Refs)
 		if src == "" {
@@ -95,7 +94,7 @@ func effectsTable(w io.Writer, kb *knowledge.Base) error {
 		if e.Expressed == "intrinsic" {
 			id += " *"
 		}
-		rows = append(rows, []string{id, strconv.FormatFloat(e.EpsilonPermil, 'g', 4, 64), fmtRange(e.RangePermil), ratio, src})
+		rows = append(rows, []string{id, sigG(e.EpsilonPermil, 4), fmtRange(e.RangePermil), ratio, src})
 	}
 	if err := wrappedTable(w, []string{"process", "ε", "range", "ε18/ε15", "sources"}, "lrlrl", rows, []int{0, 0, 0, 0, 24}); err != nil {
 		return err
@@ -110,9 +109,9 @@ func sourcesTable(w io.Writer, kb *knowledge.Base) error {
 	for _, s := range kb.Sources {
 		d18 := ""
 		if s.D18OPermil != nil {
-			d18 = strconv.FormatFloat(*s.D18OPermil, 'g', 4, 64)
+			d18 = sigG(*s.D18OPermil, 4)
 		}
-		rows = append(rows, []string{s.ID, s.Pool, strconv.FormatFloat(s.D15NPermil, 'g', 4, 64), fmtRange(s.D15NRangePermil), d18, cites(kb, s.Refs)})
+		rows = append(rows, []string{s.ID, s.Pool, sigG(s.D15NPermil, 4), fmtRange(s.D15NRangePermil), d18, cites(kb, s.Refs)})
 	}
 	return wrappedTable(w, []string{"source", "enters", "δ15N", "range", "δ18O", "sources"}, "llrlrl", rows, []int{0, 0, 0, 0, 0, 24})
 }
@@ -135,7 +134,7 @@ func measurementsTable(w io.Writer, kb *knowledge.Base) error {
 	fmt.Fprintf(w, "Measurement catalogue (sd in ‰, or on the log scale for pools and fluxes)\n\n")
 	var rows [][]string
 	for _, m := range kb.Measurements {
-		rows = append(rows, []string{m.ID + "\n  → " + m.Observable, strconv.FormatFloat(m.AnalyticalSD, 'g', 3, 64), strconv.FormatFloat(m.FieldSD, 'g', 3, 64), knowledge.CostLabel(m.Cost), m.Method})
+		rows = append(rows, []string{m.ID + "\n  → " + m.Observable, sigG(m.AnalyticalSD, 3), sigG(m.FieldSD, 3), knowledge.CostLabel(m.Cost), m.Method})
 	}
 	return wrappedTable(w, []string{"measurement → observable", "lab sd", "field sd", "cost", "method"}, "lrrll", rows, []int{0, 0, 0, 0, 25})
 }

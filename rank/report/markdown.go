@@ -186,7 +186,7 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 					method += " " + c
 				}
 			}
-			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, "`" + m.ID + "`", strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost), method})
+			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, "`" + m.ID + "`", fixed(m.Bits, 2), costName(m.Cost), method})
 		}
 		writeTable(b, []string{"#", "measurement", "id", "bits", "cost", "method"}, "rllrll", rows)
 		if len(lead) > 0 {

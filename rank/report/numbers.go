@@ -166,3 +166,11 @@ func bits(b float64) string {
 	}
 	return s + " bits"
 }
+
+// sigG prints a value with at most n significant digits, trailing zeros
+// dropped (settings, ε and δ in the knowledge tables).
+func sigG(v float64, n int) string { return strconv.FormatFloat(v, 'g', n, 64) }
+
+// fixed prints a value with a fixed number of decimals (bits, shares in
+// site tables).
+func fixed(v float64, decimals int) string { return strconv.FormatFloat(v, 'f', decimals, 64) }

@@ -80,7 +80,7 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 				if i >= opt.MaxMeasurements {
 					break
 				}
-				rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost), m.Method})
+				rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, fixed(m.Bits, 2), costName(m.Cost), m.Method})
 			}
 			if err := wrappedTable(ew, []string{"#", "measurement", "bits", "cost", "method"}, "rlrll", rows, []int{0, 22, 0, 0, 30}); err != nil {
 				return err

@@ -357,7 +357,7 @@ func yearsWords(y float64) string {
 	if y == math.Trunc(y) && y >= 1 && int(y) < len(words) {
 		return count(y, words[int(y)], "year", "years")
 	}
-	return count(y, strconv.FormatFloat(y, 'g', 3, 64), "year", "years")
+	return count(y, sigG(y, 3), "year", "years")
 }
 
 // quoteName puts a comparison's name in typographic quotes.
