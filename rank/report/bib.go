@@ -98,11 +98,11 @@ func bibCited(w io.Writer, refs []citedRef) error {
 	ew := &errWriter{w: w}
 	ew.printf("%% References cited in report.md, written by nlens. Each entry follows\n%% the label report.md cites it by.\n")
 	for _, cr := range refs {
-		mark := ""
+		ew.printf("\n")
 		if fromMemory(cr.Ref) {
-			mark = " (some details from memory; verify before citing)"
+			ew.printf("%% Some details of this entry are from memory; verify before citing.\n")
 		}
-		ew.printf("\n%% report.md: %s%s\n%s", cr.Label, mark, bibEntry(cr.Ref))
+		ew.printf("%% report.md: %s\n%s", cr.Label, bibEntry(cr.Ref))
 	}
 	return ew.err
 }
