@@ -191,6 +191,9 @@ type Magnitude struct {
 	Process   string
 	Of        string
 	Processes []string
+	// Source is the knowledge source id of an undeclared-source candidate
+	// ("" for a process response).
+	Source string
 	// Baseline is the no-change value on the nominal site (a share, the
 	// fixation rate; 0 for an undeclared source).
 	Baseline float64

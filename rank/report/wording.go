@@ -419,10 +419,10 @@ func newNamer(kb *knowledge.Base, c rank.ComparisonResult) namer {
 
 // sourceName is a source's label without its parenthetical detail.
 func (n namer) sourceName(id string) string {
-	if s, ok := n.kb.Source(strings.TrimPrefix(id, rank.SourcePrefix)); ok {
+	if s, ok := n.kb.Source(id); ok {
 		return cutParen(s.Label)
 	}
-	return strings.TrimPrefix(id, rank.SourcePrefix)
+	return id
 }
 
 // cutParen drops a trailing parenthetical: "nitrate fertilizer (Ca, K or Na
@@ -453,8 +453,8 @@ func (n namer) name(h rank.Hypothesis) string {
 
 // part names one response of a hypothesis with its direction.
 func (n namer) part(m rank.Magnitude) string {
-	if strings.HasPrefix(m.Candidate, rank.SourcePrefix) {
-		return "an undeclared input of " + n.sourceName(m.Candidate)
+	if m.Source != "" {
+		return "an undeclared input of " + n.sourceName(m.Source)
 	}
 	if h, ok := n.parts[m.Candidate]; ok && h.Label != "" {
 		return h.Label
