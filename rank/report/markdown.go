@@ -154,7 +154,12 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 			}
 			b.WriteString(".")
 		}
-		for _, a := range uniqueAdjustments(h.Adjustments) {
+		seen := map[string]bool{} // a pair carries the rules of both parts, often the same
+		for _, a := range h.Adjustments {
+			if seen[a.Rule] {
+				continue
+			}
+			seen[a.Rule] = true
 			fmt.Fprintf(b, " Prior ×%s by context rule `%s`", sig2(a.Factor), a.Rule)
 			if c := ci.cite(a.Refs...); c != "" {
 				b.WriteString(" " + c)

@@ -12,7 +12,6 @@ import (
 	"nlens/knowledge"
 	"nlens/rank"
 	"nlens/rank/study"
-	"nlens/rules"
 )
 
 // This file decides every word the reports choose from numbers: how
@@ -685,20 +684,6 @@ func posteriorCell(c rank.ComparisonResult, h rank.Hypothesis) string {
 		}
 	}
 	return "with no change"
-}
-
-// uniqueAdjustments drops repeated context rules (a pair carries the rules
-// of both its parts, often the same ones).
-func uniqueAdjustments(as []rules.Adjustment) []rules.Adjustment {
-	var out []rules.Adjustment
-	seen := map[string]bool{}
-	for _, a := range as {
-		if !seen[a.Rule] {
-			seen[a.Rule] = true
-			out = append(out, a)
-		}
-	}
-	return out
 }
 
 // fromMemory reports whether a reference has fields not checked against
