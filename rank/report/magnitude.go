@@ -85,31 +85,6 @@ func (m magnitudeWords) short() string {
 	return strings.NewReplacer(" %", "%", "≤ ", "≤", "≥ ", "≥", " kg N/ha/yr", "\u00a0kg\u00a0N/ha/yr").Replace(b.String())
 }
 
-// sentence is the full form: "nitrification takes 62 % (90 % interval
-// 45–80 %) of the NH4+ outflow, up from 21 %; its flux is about 2.4 times
-// the baseline (1.6–3.9) at the time of sampling".
-func (m magnitudeWords) sentence(process string) string {
-	var s string
-	switch m.Kind {
-	case "input":
-		if m.Baseline > 0 {
-			s = fmt.Sprintf("%s of about %s (90 %% interval %s), against %s in the site model", process, m.value(m.Best), m.intervalWords(), m.value(m.Baseline))
-		} else {
-			s = fmt.Sprintf("%s of about %s (90 %% interval %s)", process, m.value(m.Best), m.intervalWords())
-		}
-	default:
-		dir := "up"
-		if m.Direction == "less" {
-			dir = "down"
-		}
-		s = fmt.Sprintf("%s taking %s (90 %% interval %s) of %s, %s from %s", process, m.value(m.Best), m.intervalWords(), m.Of, dir, m.value(m.Baseline))
-	}
-	if fw := m.fluxWords(); fw != "" {
-		s += fmt.Sprintf("; %s (90 %% interval %s to %s)", fw, changeShort(m.Flux.RatioLow), changeShort(m.Flux.RatioHi))
-	}
-	return s
-}
-
 // prose is the form for running text, after the hypothesis's name: "about
 // 62 % of the NH4+ outflow instead of 21 % (90 % interval 45–80 %), the
 // flux about 2.4 times as high as at baseline".

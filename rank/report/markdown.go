@@ -140,11 +140,8 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 	for _, i := range lead {
 		h := c.Hypotheses[i]
 		fmt.Fprintf(b, "- **#%d %s** (posterior %s)", i+1, mdEscape(shortLabel(h)), fmtProb(h.Posterior))
-		switch {
-		case h.Pair:
-			fmt.Fprintf(b, ": %s", mdEscape(n.sized(h)))
-		case len(h.Magnitudes) == 1:
-			fmt.Fprintf(b, ": %s", mdEscape(magnitudeWords{h.Magnitudes[0]}.sentence(h.Magnitudes[0].Process)))
+		if len(h.Magnitudes) > 0 {
+			fmt.Fprintf(b, ": %s", mdEscape(n.sizes(h)))
 		}
 		b.WriteString(".")
 		if h.Mechanism != "" {

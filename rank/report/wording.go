@@ -461,20 +461,6 @@ func (n namer) part(m rank.Magnitude) string {
 	return m.Direction + " " + m.Process
 }
 
-// sized is name with each part's magnitude: "more nitrification, about
-// 62 % of the NH4+ outflow (90 % interval 45–80 %) instead of 21 %, the
-// flux about 2.4 times its baseline".
-func (n namer) sized(h rank.Hypothesis) string {
-	if len(h.Magnitudes) == 0 {
-		return n.name(h)
-	}
-	var parts []string
-	for _, m := range h.Magnitudes {
-		parts = append(parts, n.part(m)+", "+magnitudeWords{m}.prose())
-	}
-	return strings.Join(parts, "; together with ")
-}
-
 // sizes words each part's magnitude for running text: "about 13 % of the
 // plant's N supply instead of 73 % (90 % interval at most 53 %)"; the
 // parts of a pair are named.
