@@ -1041,6 +1041,7 @@ func describeTreatment(kb *knowledge.Base, tr forward.Treatment) Treatment {
 	for _, tag := range tr.Management {
 		m, ok := kb.Management(tag)
 		if !ok {
+			out.Context = append(out.Context, tag)
 			continue
 		}
 		am := AppliedManagement{Tag: tag, Label: m.Label, Refs: m.Refs}

@@ -117,6 +117,9 @@ type Treatment struct {
 	Management []AppliedManagement
 	// Severity of a fire as given ("" when drawn over all three).
 	Severity string
+	// Context lists the declared management tags that only set the
+	// priors (limed, drained, fertilized, …), in the study's order.
+	Context []string
 }
 
 // AppliedAddition is a declared input of a source.

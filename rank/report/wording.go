@@ -302,6 +302,12 @@ func treatmentWhen(c rank.ComparisonResult) string {
 	return yearsWords(*c.Years) + " after the " + tw
 }
 
+// contextTagWords names the management tags that only set priors.
+var contextTagWords = map[string]string{
+	"limed": "liming", "drained": "drainage", "irrigated": "irrigation", "thinned": "thinning",
+	"tilled": "tillage", "fertilized": "fertilization", "harvested": "harvest",
+}
+
 // treatmentWords names the known treatment of a comparison: "ammonium
 // nitrate fertilizer at 60 kg N/ha per year", "clear-cut harvest", "fire
 // (moderate severity)"; "" when nothing was declared.
@@ -327,6 +333,16 @@ func treatmentWords(t rank.Treatment) string {
 			s += " of " + t.Severity + " severity"
 		}
 		parts = append(parts, s)
+	}
+	for _, tag := range t.Context {
+		if tag == "fertilized" && len(t.Additions) > 0 {
+			continue // the additions name the fertilizer
+		}
+		if w, ok := contextTagWords[tag]; ok {
+			parts = append(parts, w)
+		} else {
+			parts = append(parts, tag)
+		}
 	}
 	return joinAnd(parts)
 }
