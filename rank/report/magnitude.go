@@ -65,7 +65,17 @@ func (m magnitudeWords) fluxWords() string {
 	if f == nil || !f.HasRatio || m.Kind == "input" {
 		return ""
 	}
-	return "that flux " + changeAgainst(f.Ratio, "at baseline")
+	s := "that flux " + changeAgainst(f.Ratio, "at baseline")
+	// A smaller share of a larger throughput (or the reverse) moves the
+	// flux against the direction of the share; say why, so it does not
+	// read as a contradiction.
+	switch {
+	case m.Direction == "less" && f.Ratio >= 1.05:
+		s += ", as more N now passes through the pool"
+	case m.Direction == "more" && f.Ratio <= 1/1.05:
+		s += ", as less N now passes through the pool"
+	}
+	return s
 }
 
 // short is the compact form for tables: "62% (45–80%), was 21%;
