@@ -25,11 +25,16 @@ var studyResults sync.Map // name → *rank.Result
 
 func explainStudy(t *testing.T, name string) *rank.Result {
 	t.Helper()
-	if r, ok := studyResults.Load(name); ok {
+	return explainPath(t, filepath.Join("testdata", "studies", name+".yaml"))
+}
+
+// explainPath explains a study file once per test binary.
+func explainPath(t *testing.T, path string) *rank.Result {
+	t.Helper()
+	if r, ok := studyResults.Load(path); ok {
 		return r.(*rank.Result)
 	}
 	kb := testKB(t)
-	path := filepath.Join("testdata", "studies", name+".yaml")
 	data, err := os.ReadFile(path)
 	if err != nil {
 		t.Fatal(err)
@@ -48,7 +53,7 @@ func explainStudy(t *testing.T, name string) *rank.Result {
 	if err != nil {
 		t.Fatal(err)
 	}
-	studyResults.Store(name, r)
+	studyResults.Store(path, r)
 	return r
 }
 
@@ -111,31 +116,6 @@ func TestEmailLimitsOnStudies(t *testing.T) {
 	}
 }
 
-func explainPath(t *testing.T, path string) *rank.Result {
-	t.Helper()
-	if r, ok := studyResults.Load(path); ok {
-		return r.(*rank.Result)
-	}
-	kb := testKB(t)
-	data, err := os.ReadFile(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	st, err := study.Parse(path, data, kb, study.Options{}, os.ReadFile)
-	if err != nil {
-		t.Fatal(err)
-	}
-	set, err := rules.Default(kb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := rank.Explain(context.Background(), st, kb, set, rank.Options{Seed: 2, Draws: 16, MaxDraws: 16, Version: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	studyResults.Store(path, r)
-	return r
-}
 
 // When no candidate fits, every format says so before any ranking and
 // before any measurement advice (issue 13, item 3).
@@ -267,5 +247,25 @@ func TestDemoGolden(t *testing.T) {
 		t.Run(f.format, func(t *testing.T) {
 			golden(t, f.file, []byte(render(t, r, f.format)))
 		})
+	}
+}
+
+// No format carries the slips issue 13 found: singular counts with plural
+// nouns, doubled articles, "= none", rate multipliers, or a clear shift
+// called small.
+func TestNoSlipsInAnyFormat(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs the ranking engine")
+	}
+	for _, name := range []string{"clearcut", "fertilizer", "series", "nofit"} {
+		r := explainStudy(t, name)
+		for _, f := range []string{FormatText, FormatTable, FormatMarkdown} {
+			got := strings.Join(strings.Fields(render(t, r, f)), " ")
+			for _, bad := range []string{" 1 years", " 1 bits", "the a ", "the an ", "= none", "× rate", "small relative to", "about the same size", " ,", "((", "))"} {
+				if strings.Contains(got, bad) {
+					t.Errorf("%s, %s: holds %q", name, f, bad)
+				}
+			}
+		}
 	}
 }
