@@ -116,7 +116,6 @@ func TestEmailLimitsOnStudies(t *testing.T) {
 	}
 }
 
-
 // When no candidate fits, every format says so before any ranking and
 // before any measurement advice (issue 13, item 3).
 func TestNoFitComesFirst(t *testing.T) {
