@@ -123,6 +123,9 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 	writeTable(b, []string{"observable", "control", "treatment", "shift", "SE", "unit", "n (control / treatment)"}, "lrrrrlr", rows)
 
 	b.WriteString("### Explanations\n\n")
+	if c.Series != "" {
+		fmt.Fprintf(b, "This comparison belongs to the series %s: the explanations below are the series' joint ranking, with one response for all its comparisons, and the predicted shifts are this comparison's.\n\n", mdEscape(quoteName(c.Series)))
+	}
 	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: best value with its 90 % credible interval. Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
 	rows = rows[:0]
 	for i, h := range c.Hypotheses {

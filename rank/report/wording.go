@@ -248,7 +248,9 @@ func noiseClause(obs []study.Observed) string {
 // (ammonium nitrate fertilizer at 60 kg N/ha per year, sampled twelve
 // years after it began), foliar δ15N was 3.1 ‰ higher (standard error
 // 0.5 ‰), while fungal and bulk-soil δ15N did not differ beyond noise."
-func patternSentence(c rank.ComparisonResult) string {
+// treatment says whether to name the treatment (the later comparisons of
+// a series share the first one's).
+func patternSentence(c rank.ComparisonResult, treatment bool) string {
 	var clauses []string
 	var noise []study.Observed
 	for _, o := range orderedObserved(c.Observed) {
@@ -256,14 +258,17 @@ func patternSentence(c rank.ComparisonResult) string {
 			noise = append(noise, o)
 			continue
 		}
-		clauses = append(clauses, shiftClause(o, len(clauses) == 0))
+		clauses = append(clauses, shiftClause(o, len(clauses) == 0 && treatment))
 	}
 	lead := "In " + quoteName(c.Name)
 	var ctx []string
-	if tw := treatmentWords(c.Treatment); tw != "" {
+	tw := treatmentWords(c.Treatment)
+	if tw != "" && treatment {
 		ctx = append(ctx, tw)
 	}
 	switch {
+	case c.Years != nil && tw != "" && !treatment:
+		ctx = append(ctx, yearsWords(*c.Years)+" after it")
 	case c.Years != nil && len(c.Treatment.Additions) > 0:
 		ctx = append(ctx, "sampled "+yearsWords(*c.Years)+" after it began")
 	case c.Years != nil && len(ctx) > 0:
