@@ -23,13 +23,13 @@ import (
 
 var studyResults sync.Map // name → *rank.Result
 
-func explainStudy(t *testing.T, name string) *rank.Result {
+func studyResult(t *testing.T, name string) *rank.Result {
 	t.Helper()
-	return explainPath(t, filepath.Join("testdata", "studies", name+".yaml"))
+	return studyFileResult(t, filepath.Join("testdata", "studies", name+".yaml"))
 }
 
-// explainPath explains a study file once per test binary.
-func explainPath(t *testing.T, path string) *rank.Result {
+// studyFileResult explains a study file once per test binary.
+func studyFileResult(t *testing.T, path string) *rank.Result {
 	t.Helper()
 	if r, ok := studyResults.Load(path); ok {
 		return r.(*rank.Result)
@@ -88,9 +88,9 @@ func TestEmailLimitsOnStudies(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			var r *rank.Result
 			if tc.name == "demo" {
-				r = explainPath(t, demo)
+				r = studyFileResult(t, demo)
 			} else {
-				r = explainStudy(t, tc.name)
+				r = studyResult(t, tc.name)
 			}
 			got := render(t, r, FormatText)
 			n := words([]string{got})
@@ -122,7 +122,7 @@ func TestNoFitComesFirst(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the ranking engine")
 	}
-	r := explainStudy(t, "nofit")
+	r := studyResult(t, "nofit")
 	if !r.Comparisons[0].NoFit {
 		t.Fatalf("the impossible pattern fits (p = %g): the test study no longer tests the no-fit order", r.Comparisons[0].Hypotheses[0].Fit.P)
 	}
@@ -175,7 +175,7 @@ func TestCautionsInEveryFormat(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the ranking engine")
 	}
-	r := explainStudy(t, "clearcut")
+	r := studyResult(t, "clearcut")
 	for _, f := range ExplainFormats {
 		got := strings.Join(strings.Fields(render(t, r, f)), " ")
 		for _, want := range []string{"indicative, not proof", "licensed professionals"} {
@@ -193,7 +193,7 @@ func TestEmailManyComparisons(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the ranking engine")
 	}
-	base := explainStudy(t, "clearcut")
+	base := studyResult(t, "clearcut")
 	r := *base
 	r.Comparisons = nil
 	for i := range 4 {
@@ -257,7 +257,7 @@ func TestNoSlipsInAnyFormat(t *testing.T) {
 		t.Skip("runs the ranking engine")
 	}
 	for _, name := range []string{"clearcut", "fertilizer", "series", "nofit"} {
-		r := explainStudy(t, name)
+		r := studyResult(t, name)
 		for _, f := range []string{FormatText, FormatTable, FormatMarkdown} {
 			got := strings.Join(strings.Fields(render(t, r, f)), " ")
 			for _, bad := range []string{" 1 years", " 1 bits", "the a ", "the an ", "= none", "× rate", "small relative to", "about the same size", " ,", "((", "))"} {
