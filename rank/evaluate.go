@@ -404,7 +404,7 @@ func (s *scored) magnitudes() []Magnitude {
 		if noun == "" {
 			noun = c.Label
 		}
-		m := Magnitude{Candidate: c.ID, Kind: magnitudeKind(k.kind), Direction: c.Direction, Process: noun, Of: c.Magnitude.Of,
+		m := Magnitude{Candidate: c.ID, Kind: magnitudeKind(k.kind), Direction: c.Direction, Process: noun, Of: c.Magnitude.Of, Source: c.Source,
 			Processes: c.Knob.Processes, Unit: c.Magnitude.Unit, Baseline: k.baseline}
 		if k.kind == rules.KnobSource {
 			m.Baseline = 0

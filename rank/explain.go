@@ -731,7 +731,7 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 			return plural
 		}
 		sc.warnf("the data cannot speak to %s: %s: %s keep the observed quantities within their standard errors of what %s predicts over %s whole prior range, so %s counted with it",
-			pick("one response", fmt.Sprintf("%d responses", len(quiet))), strings.Join(quiet, ", "), pick("it would", "they would"), hyps[0].Label, pick("its", "their"), pick("it is", "they are"))
+			pick("one response", fmt.Sprintf("%d responses", len(quiet))), joinAnd(quiet), pick("it would", "they would"), hyps[0].Label, pick("its", "their"), pick("it is", "they are"))
 	}
 	// Monte Carlo error of each posterior: dlog p_H = (1 − p_H)·dlog Z_H −
 	// Σ_{k≠H} p_k·dlog Z_k, with the relative variances of the evidences
@@ -1079,6 +1079,7 @@ func describeTreatment(kb *knowledge.Base, tr forward.Treatment) Treatment {
 	for _, tag := range tr.Management {
 		m, ok := kb.Management(tag)
 		if !ok {
+			out.Context = append(out.Context, tag)
 			continue
 		}
 		am := AppliedManagement{Tag: tag, Label: m.Label, Refs: m.Refs}

@@ -123,6 +123,9 @@ type Treatment struct {
 	Management []AppliedManagement
 	// Severity of a fire as given ("" when drawn over all three).
 	Severity string
+	// Context lists the declared management tags that only set the
+	// priors (limed, drained, fertilized, …), in the study's order.
+	Context []string
 }
 
 // AppliedAddition is a declared input of a source.
@@ -197,6 +200,9 @@ type Magnitude struct {
 	Process   string
 	Of        string
 	Processes []string
+	// Source is the knowledge source id of an undeclared-source candidate
+	// ("" for a process response).
+	Source string
 	// Baseline is the no-change value on the nominal site (a share, the
 	// fixation rate; 0 for an undeclared source).
 	Baseline float64

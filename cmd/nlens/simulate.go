@@ -222,7 +222,11 @@ func parseChange(site *forward.Site, e *env, set *rules.Set, opt simulateOptions
 	if len(response.Knobs)+len(response.Inputs) > 0 {
 		c.Mods = append(c.Mods, response)
 		if opt.pulseSet {
-			words = append(words, fmt.Sprintf("for %s years", strconv.FormatFloat(opt.pulse, 'g', 4, 64)))
+			unit := "years"
+			if opt.pulse == 1 {
+				unit = "year"
+			}
+			words = append(words, fmt.Sprintf("for %s %s", strconv.FormatFloat(opt.pulse, 'g', 4, 64), unit))
 		}
 	}
 	var tr forward.Treatment

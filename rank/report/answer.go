@@ -2,7 +2,6 @@ package report
 
 import (
 	"io"
-	"strconv"
 	"strings"
 	"unicode/utf8"
 )
@@ -49,7 +48,7 @@ func WriteAnswer(w io.Writer, a Answer, format string) error {
 		for _, q := range qs {
 			v := "undefined"
 			if q.Value != nil {
-				v = strconv.FormatFloat(*q.Value, 'f', decimalsFor(*q.Value), 64)
+				v = fixed(*q.Value, decimalsFor(*q.Value))
 			}
 			out = append(out, []string{q.Name, v, q.Unit})
 		}

@@ -98,7 +98,11 @@ func bibCited(w io.Writer, refs []citedRef) error {
 	ew := &errWriter{w: w}
 	ew.printf("%% References cited in report.md, written by nlens. Each entry follows\n%% the label report.md cites it by.\n")
 	for _, cr := range refs {
-		ew.printf("\n%% report.md: %s\n%s", cr.Label, bibEntry(cr.Ref))
+		ew.printf("\n")
+		if fromMemory(cr.Ref) {
+			ew.printf("%% Some details of this entry are from memory; verify before citing.\n")
+		}
+		ew.printf("%% report.md: %s\n%s", cr.Label, bibEntry(cr.Ref))
 	}
 	return ew.err
 }

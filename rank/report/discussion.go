@@ -280,8 +280,10 @@ func (d *drafter) mechanism(h rank.Hypothesis, lead string) string {
 		d.explained = append(d.explained, id)
 		clauses = append(clauses, strings.TrimSuffix(single.Mechanism, "."))
 		refs = append(refs, single.Refs...)
-		if strings.HasPrefix(id, rank.SourcePrefix) {
-			sources = append(sources, strings.TrimPrefix(id, rank.SourcePrefix))
+		for _, m := range single.Magnitudes {
+			if m.Source != "" {
+				sources = append(sources, m.Source)
+			}
 		}
 	}
 	if len(clauses) == 0 {

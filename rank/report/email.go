@@ -229,7 +229,7 @@ func (u summaryUnit) paragraph(kb *knowledge.Base, g *glosses, level detail) str
 		if level == leastDetail && i > 0 {
 			break
 		}
-		parts = append(parts, patternSentence(c))
+		parts = append(parts, patternSentence(c, i == 0))
 	}
 	n := newNamer(kb, u.ranked)
 	parts = append(parts, leadSentences(u.ranked, n, g, level))

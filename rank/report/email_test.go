@@ -172,3 +172,18 @@ func TestWrap(t *testing.T) {
 		})
 	}
 }
+
+// A two-mode posterior is worded as two values, never as one interval
+// spanning both (DESIGN §5), and without nested parentheses.
+func TestTwoModesWording(t *testing.T) {
+	t.Parallel()
+	m := share("more-denitrification", "more", "denitrification", "the NO3− outflow", 0.56, 0.38, 0.89, 0.06, 23)
+	m.Modes = []rank.Mode{{Best: 0.52, Low: 0.36, High: 0.66, Mass: 0.6}, {Best: 0.86, Low: 0.78, High: 0.90, Mass: 0.4}}
+	mw := magnitudeWords{m}
+	if got, want := mw.short(), "52% (36–66%) or 86% (78–90%), was 6.0%; flux 23-fold"; got != want {
+		t.Errorf("short = %q, want %q", got, want)
+	}
+	if got := mw.prose(); !strings.HasPrefix(got, "either about 52 % (36–66 %) or about 86 % (78–90 %) of the NO3− outflow instead of 6.0 %") {
+		t.Errorf("prose = %q", got)
+	}
+}

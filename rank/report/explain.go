@@ -3,7 +3,6 @@ package report
 import (
 	"io"
 	"sort"
-	"strconv"
 
 	"nlens/rank/study"
 )
@@ -12,7 +11,7 @@ func when(years *float64) string {
 	if years == nil {
 		return "long-standing contrast (compared at steady state)"
 	}
-	return count(*years, strconv.FormatFloat(*years, 'g', 4, 64), "year", "years") + " after the treatment began"
+	return count(*years, sigG(*years, 4), "year", "years") + " after the treatment began"
 }
 
 func observedTable(w io.Writer, obs []study.Observed) error {

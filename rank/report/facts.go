@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"io"
 	"slices"
-	"strconv"
 	"strings"
 
 	"nlens/forward"
@@ -77,7 +76,7 @@ func fmtRange(r []float64) string {
 	if len(r) != 2 {
 		return ""
 	}
-	return fmt.Sprintf("%s to %s", strconv.FormatFloat(r[0], 'g', 4, 64), strconv.FormatFloat(r[1], 'g', 4, 64))
+	return fmt.Sprintf("%s to %s", sigG(r[0], 4), sigG(r[1], 4))
 }
 
 func effectsTable(w io.Writer, kb *knowledge.Base) error {
@@ -87,7 +86,7 @@ func effectsTable(w io.Writer, kb *knowledge.Base) error {
 	for _, e := range kb.Effects {
 		ratio := ""
 		if e.D18ORatio != nil {
-			ratio = strconv.FormatFloat(*e.D18ORatio, 'g', 3, 64)
+			ratio = sigG(*e.D18ORatio, 3)
 		}
 		src := cites(kb, e.Refs)
 		if src == "" {
@@ -97,7 +96,7 @@ func effectsTable(w io.Writer, kb *knowledge.Base) error {
 		if e.Expressed == "intrinsic" {
 			id += " *"
 		}
-		rows = append(rows, []string{id, strconv.FormatFloat(e.EpsilonPermil, 'g', 4, 64), fmtRange(e.RangePermil), ratio, src})
+		rows = append(rows, []string{id, sigG(e.EpsilonPermil, 4), fmtRange(e.RangePermil), ratio, src})
 	}
 	if err := wrappedTable(w, []string{"process", "ε", "range", "ε18/ε15", "sources"}, "lrlrl", rows, []int{0, 0, 0, 0, 24}); err != nil {
 		return err
@@ -109,7 +108,7 @@ func effectsTable(w io.Writer, kb *knowledge.Base) error {
 func sourcesTable(w io.Writer, kb *knowledge.Base) error {
 	fmt.Fprintf(w, "N sources: δ15N in ‰ vs AIR, δ18O in ‰ vs VSMOW\n\n")
 	var rows [][]string
-	g4 := func(v float64) string { return strconv.FormatFloat(v, 'g', 4, 64) }
+	g4 := func(v float64) string { return sigG(v, 4) }
 	for _, s := range kb.Sources {
 		if len(s.Parts) <= 1 {
 			d18 := ""
@@ -142,7 +141,7 @@ func forcingsTable(w io.Writer, kb *knowledge.Base) error {
 	fmt.Fprintf(w, "Known treatments: what each management tag applies in every hypothesis\n")
 	fmt.Fprintf(w, "(uncertain sizes are drawn per draw: triangular over the range, mode typical)\n\n")
 	size := func(s knowledge.Size, unit string) string {
-		return fmt.Sprintf("%s%s (%s)", strconv.FormatFloat(s.Typical, 'g', 3, 64), unit, fmtRange(s.Range))
+		return fmt.Sprintf("%s%s (%s)", sigG(s.Typical, 3), unit, fmtRange(s.Range))
 	}
 	var rows [][]string
 	effect := func(tag string, moves []knowledge.MoveForcing, rates []knowledge.RateForcing, src string) {
@@ -210,7 +209,7 @@ func measurementsTable(w io.Writer, kb *knowledge.Base) error {
 	fmt.Fprintf(w, "Measurement catalogue (sd in ‰, or on the log scale for pools and fluxes)\n\n")
 	var rows [][]string
 	for _, m := range kb.Measurements {
-		rows = append(rows, []string{m.ID + "\n  → " + m.Observable, strconv.FormatFloat(m.AnalyticalSD, 'g', 3, 64), strconv.FormatFloat(m.FieldSD, 'g', 3, 64), knowledge.CostLabel(m.Cost), m.Method})
+		rows = append(rows, []string{m.ID + "\n  → " + m.Observable, sigG(m.AnalyticalSD, 3), sigG(m.FieldSD, 3), knowledge.CostLabel(m.Cost), m.Method})
 	}
 	return wrappedTable(w, []string{"measurement → observable", "lab sd", "field sd", "cost", "method"}, "lrrll", rows, []int{0, 0, 0, 0, 25})
 }

@@ -153,7 +153,7 @@ func transientResult() *rank.Result {
 	waste := rank.Hypothesis{ID: "source:wastewater", Label: "undeclared septic or sewage effluent nitrate",
 		Mechanism: "septic or sewage effluent nitrate enters with its own δ15N and pulls the pools it feeds toward it",
 		Refs:      []string{"kendall1998", "bateman2007"}, Posterior: 0.11, PriorProb: 0.01,
-		Magnitudes: []rank.Magnitude{{Candidate: "source:wastewater", Kind: "input", Process: "septic or sewage effluent nitrate", Best: 12, Low: 5.1, High: 31, Unit: "kg N/ha/yr", PriorLow: 1, PriorHigh: 100}},
+		Magnitudes: []rank.Magnitude{{Candidate: "source:wastewater", Source: "wastewater", Kind: "input", Process: "septic or sewage effluent nitrate", Best: 12, Low: 5.1, High: 31, Unit: "kg N/ha/yr", PriorLow: 1, PriorHigh: 100}},
 		Predicted:  map[string]rank.Moments{"foliage": mo(1.1, 0.4), "soil": mo(0.02, 0.01), "soil-nitrate": mo(6.6, 1.5)},
 		Fit:        rank.Fit{Chi2: 0.9, DOF: 3, P: 0.82}, MaxSignal: 5}
 	none := rank.Hypothesis{ID: "none", Label: "the declared treatment alone", Mechanism: "the treatments differ by sampling noise only",
@@ -215,7 +215,7 @@ func logYears(n int, horizon float64) []float64 {
 // fits, and one where "none" leads.
 func multiResult() *rank.Result {
 	ly := logYears(21, 2000)
-	dep := rank.Magnitude{Candidate: "source:deposition", Kind: "input", Process: "atmospheric N deposition", Best: 9, Low: 3, High: 25, Unit: "kg N/ha/yr", PriorLow: 1, PriorHigh: 40}
+	dep := rank.Magnitude{Candidate: "source:deposition", Source: "deposition", Kind: "input", Process: "atmospheric N deposition", Best: 9, Low: 3, High: 25, Unit: "kg N/ha/yr", PriorLow: 1, PriorHigh: 40}
 	nshare := rank.Magnitude{Candidate: "less-nitrate-uptake", Kind: "nitrate-share", Direction: "less", Process: "nitrate in plant uptake", Of: "plant uptake", Best: 0.1, Low: 0.03, High: 0.25, Unit: "share", Baseline: 0.48, PriorLow: 0.01, PriorHigh: 0.48, AtBound: "low"}
 	uptake := rank.Hypothesis{ID: "less-nitrate-uptake", Label: "less nitrate in plant uptake", Direction: "less",
 		Mechanism: "a plant taking more NH4+ and less NO3− moves toward the heavier NH4+ without any change in losses", Refs: []string{"hogberg1997", "pritchard2005"},

@@ -71,6 +71,8 @@ type TreatmentJSON struct {
 	Additions  []AdditionJSON   `json:"additions"`
 	Management []ManagementJSON `json:"management"`
 	Severity   *string          `json:"severity"`
+	// Context lists the declared management tags that only set priors.
+	Context []string `json:"context_management"`
 }
 
 // AdditionJSON is one declared addition.
@@ -279,7 +281,7 @@ func magnitudeJSON(m rank.Magnitude) MagnitudeJSON {
 }
 
 func treatmentJSON(t rank.Treatment) TreatmentJSON {
-	out := TreatmentJSON{Additions: []AdditionJSON{}, Management: []ManagementJSON{}, Severity: nullable(t.Severity)}
+	out := TreatmentJSON{Additions: []AdditionJSON{}, Management: []ManagementJSON{}, Severity: nullable(t.Severity), Context: append([]string{}, t.Context...)}
 	for _, a := range t.Additions {
 		aj := AdditionJSON{Source: a.Source, Rate: round6(a.RateKgPerHaYr), D15N: round6(a.D15N), D15NMeasured: a.Measured}
 		if a.DurationYears > 0 {

@@ -39,10 +39,6 @@ func (m magnitudeWords) intervalIn(prose bool) string {
 	if prose {
 		atLeast, atMost = "at least ", "at most "
 	}
-	if len(m.Modes) == 2 {
-		a, b := m.Modes[0], m.Modes[1]
-		return "two modes: " + m.value(a.Best) + " (" + m.value(a.Low) + "–" + m.value(a.High) + ") or " + m.value(b.Best) + " (" + m.value(b.Low) + "–" + m.value(b.High) + ")"
-	}
 	switch m.AtBound {
 	case "high":
 		return atLeast + m.value(m.Low)
@@ -51,10 +47,25 @@ func (m magnitudeWords) intervalIn(prose bool) string {
 	case "both":
 		return "anywhere in " + m.value(m.PriorLow) + "–" + m.value(m.PriorHigh)
 	}
+	return m.span(m.Low, m.High)
+}
+
+// span prints a range with its unit once: "36–66 %", "3–25 kg N/ha/yr".
+func (m magnitudeWords) span(lo, hi float64) string {
 	if isShare(m.Magnitude) {
-		return pctText(m.Low) + "–" + pctText(m.High) + " %"
+		return pctText(lo) + "–" + pctText(hi) + " %"
 	}
-	return sig2(m.Low) + "–" + sig2(m.High) + " kg N/ha/yr"
+	return sig2(lo) + "–" + sig2(hi) + " kg N/ha/yr"
+}
+
+// modes words a two-mode posterior: "either about 52 % (90 % of that mode
+// in 36–66 %) or about 86 % (78–90 %)"; "" for one mode.
+func (m magnitudeWords) modes() string {
+	if len(m.Modes) != 2 {
+		return ""
+	}
+	a, b := m.Modes[0], m.Modes[1]
+	return "either about " + m.value(a.Best) + " (" + m.span(a.Low, a.High) + ") or about " + m.value(b.Best) + " (" + m.span(b.Low, b.High) + ")"
 }
 
 // fluxWords says what the magnitude means for its flux at the time of
@@ -65,15 +76,30 @@ func (m magnitudeWords) fluxWords() string {
 	if f == nil || !f.HasRatio || m.Kind == "input" {
 		return ""
 	}
-	return "that flux " + changeAgainst(f.Ratio, "at baseline")
+	s := "that flux " + changeAgainst(f.Ratio, "at baseline")
+	// A smaller share of a larger throughput (or the reverse) moves the
+	// flux against the direction of the share; say why, so it does not
+	// read as a contradiction.
+	switch {
+	case m.Direction == "less" && f.Ratio >= 1.05:
+		s += ", as more N now passes through the pool"
+	case m.Direction == "more" && f.Ratio <= 1/1.05:
+		s += ", as less N now passes through the pool"
+	}
+	return s
 }
 
 // short is the compact form for tables: "62% (45–80%), was 21%;
 // flux 2.4-fold".
 func (m magnitudeWords) short() string {
 	var b strings.Builder
-	b.WriteString(m.value(m.Best))
-	b.WriteString(" (" + m.interval() + ")")
+	if md := m.modes(); md != "" {
+		// A two-mode posterior has no one best value: "52% (36–66%) or 86% (78–90%)".
+		b.WriteString(strings.NewReplacer("either ", "", "about ", "").Replace(md))
+	} else {
+		b.WriteString(m.value(m.Best))
+		b.WriteString(" (" + m.interval() + ")")
+	}
 	if m.Kind != "input" || m.Baseline > 0 {
 		b.WriteString(", was " + m.value(m.Baseline))
 	}
@@ -83,31 +109,6 @@ func (m magnitudeWords) short() string {
 	// Numbers keep their signs and units in one word, so a wrapped table
 	// cell never breaks "73 %" or "≤ 53 %" across lines.
 	return strings.NewReplacer(" %", "%", "≤ ", "≤", "≥ ", "≥", " kg N/ha/yr", "\u00a0kg\u00a0N/ha/yr").Replace(b.String())
-}
-
-// sentence is the full form: "nitrification takes 62 % (90 % interval
-// 45–80 %) of the NH4+ outflow, up from 21 %; its flux is about 2.4 times
-// the baseline (1.6–3.9) at the time of sampling".
-func (m magnitudeWords) sentence(process string) string {
-	var s string
-	switch m.Kind {
-	case "input":
-		if m.Baseline > 0 {
-			s = fmt.Sprintf("%s of about %s (90 %% interval %s), against %s in the site model", process, m.value(m.Best), m.intervalWords(), m.value(m.Baseline))
-		} else {
-			s = fmt.Sprintf("%s of about %s (90 %% interval %s)", process, m.value(m.Best), m.intervalWords())
-		}
-	default:
-		dir := "up"
-		if m.Direction == "less" {
-			dir = "down"
-		}
-		s = fmt.Sprintf("%s taking %s (90 %% interval %s) of %s, %s from %s", process, m.value(m.Best), m.intervalWords(), m.Of, dir, m.value(m.Baseline))
-	}
-	if fw := m.fluxWords(); fw != "" {
-		s += fmt.Sprintf("; %s (90 %% interval %s to %s)", fw, changeShort(m.Flux.RatioLow), changeShort(m.Flux.RatioHi))
-	}
-	return s
 }
 
 // prose is the form for running text, after the hypothesis's name: "about
@@ -120,6 +121,8 @@ func (m magnitudeWords) prose() string {
 		s = fmt.Sprintf("about %s instead of %s (90 %% interval %s)", m.value(m.Best), m.value(m.Baseline), m.intervalWords())
 	case m.Kind == "input":
 		s = fmt.Sprintf("about %s (90 %% interval %s)", m.value(m.Best), m.intervalWords())
+	case m.modes() != "":
+		s = fmt.Sprintf("%s of %s instead of %s (two separate modes, each with its 90 %% interval)", m.modes(), m.Of, m.value(m.Baseline))
 	default:
 		s = fmt.Sprintf("about %s of %s instead of %s (90 %% interval %s)", m.value(m.Best), m.Of, m.value(m.Baseline), m.intervalWords())
 	}

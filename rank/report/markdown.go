@@ -177,11 +177,8 @@ func rankingSection(b *strings.Builder, c rank.ComparisonResult, kb *knowledge.B
 	for _, i := range lead {
 		h := c.Hypotheses[i]
 		fmt.Fprintf(b, "- **#%d %s** (posterior %s)", i+1, mdEscape(shortLabel(h)), fmtProb(h.Posterior))
-		switch {
-		case h.Pair:
-			fmt.Fprintf(b, ": %s", mdEscape(n.sized(h)))
-		case len(h.Magnitudes) == 1:
-			fmt.Fprintf(b, ": %s", mdEscape(magnitudeWords{h.Magnitudes[0]}.sentence(h.Magnitudes[0].Process)))
+		if len(h.Magnitudes) > 0 {
+			fmt.Fprintf(b, ": %s", mdEscape(n.sizes(h)))
 		}
 		b.WriteString(".")
 		if h.Mechanism != "" {
@@ -191,7 +188,12 @@ func rankingSection(b *strings.Builder, c rank.ComparisonResult, kb *knowledge.B
 			}
 			b.WriteString(".")
 		}
-		for _, a := range uniqueAdjustments(h.Adjustments) {
+		seen := map[string]bool{} // a pair carries the rules of both parts, often the same
+		for _, a := range h.Adjustments {
+			if seen[a.Rule] {
+				continue
+			}
+			seen[a.Rule] = true
 			fmt.Fprintf(b, " Prior ×%s by context rule `%s`", sig2(a.Factor), a.Rule)
 			if c := ci.cite(a.Refs...); c != "" {
 				b.WriteString(" " + c)
@@ -227,7 +229,7 @@ func rankingSection(b *strings.Builder, c rank.ComparisonResult, kb *knowledge.B
 					method += " " + c
 				}
 			}
-			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, "`" + m.ID + "`", strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost), method})
+			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, "`" + m.ID + "`", fixed(m.Bits, 2), costName(m.Cost), method})
 		}
 		writeTable(b, []string{"#", "measurement", "id", "bits", "cost", "method"}, "rllrll", rows)
 		if len(lead) > 0 {

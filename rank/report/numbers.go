@@ -169,7 +169,7 @@ func bits(b float64) string {
 
 // g3 writes a forcing size with up to three significant digits and no
 // trailing zeros (0.2, 5, 98).
-func g3(v float64) string { return strconv.FormatFloat(v, 'g', 3, 64) }
+func g3(v float64) string { return sigG(v, 3) }
 
 func percentRange(r []float64) string {
 	if len(r) != 2 {
@@ -177,3 +177,10 @@ func percentRange(r []float64) string {
 	}
 	return g3(100*r[0]) + "–" + g3(100*r[1]) + " %"
 }
+// sigG prints a value with at most n significant digits, trailing zeros
+// dropped (settings, ε and δ in the knowledge tables).
+func sigG(v float64, n int) string { return strconv.FormatFloat(v, 'g', n, 64) }
+
+// fixed prints a value with a fixed number of decimals (bits, shares in
+// site tables).
+func fixed(v float64, decimals int) string { return strconv.FormatFloat(v, 'f', decimals, 64) }

@@ -14,7 +14,7 @@ func TestSeriesRankedOnce(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the ranking engine")
 	}
-	r := explainStudy(t, "series")
+	r := studyResult(t, "series")
 	if len(r.Series) == 0 {
 		t.Fatal("no series in the result")
 	}

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strconv"
 	"strings"
 
 	"nlens/forward"
@@ -120,7 +119,7 @@ func simulationTable(w io.Writer, sim *forward.Simulation, opt SimulationOptions
 	ew := &errWriter{w: w}
 	when := "at the new steady state"
 	if sim.Years != nil {
-		when = fmt.Sprintf("%s years after the change", strconv.FormatFloat(*sim.Years, 'g', 6, 64))
+		when = count(*sim.Years, sigG(*sim.Years, 6), "year", "years") + " after the change"
 	}
 	title := sim.Site.ID
 	if opt.Description != "" {

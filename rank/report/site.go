@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strconv"
 	"strings"
 
 	"nlens/forward"
@@ -174,7 +173,7 @@ func siteTable(w io.Writer, sum *forward.SiteSummary, kb *knowledge.Base) error 
 	ew.printf("\nFluxes at the steady state (kg N/ha/yr), each transfer's share of its\ndonor pool's outflow, and ε (‰; from the site file, the mycorrhizal type\nor the knowledge base)\n\n")
 	rows = rows[:0]
 	for _, t := range sum.Transfers {
-		rows = append(rows, []string{t.Process, route(t.From, t.To), num(t.FluxKgPerHaYr), strconv.FormatFloat(t.Share, 'f', 3, 64), signed(t.Epsilon, 1), epsSource(t)})
+		rows = append(rows, []string{t.Process, route(t.From, t.To), num(t.FluxKgPerHaYr), fixed(t.Share, 3), signed(t.Epsilon, 1), epsSource(t)})
 	}
 	if err := wrappedTable(ew, []string{"process", "from→to", "flux", "share", "ε", "ε from"}, "llrrrl", rows, []int{0, 24, 0, 0, 0, 10}); err != nil {
 		return err
@@ -182,7 +181,7 @@ func siteTable(w io.Writer, sum *forward.SiteSummary, kb *knowledge.Base) error 
 	ew.printf("\nEach process's share of the combined outflow of the pools it draws from\n\n")
 	rows = rows[:0]
 	for _, p := range sum.Processes {
-		rows = append(rows, []string{p.Process, strings.Join(p.Donors, ", "), num(p.FluxKgPerHaYr), strconv.FormatFloat(p.Share, 'f', 3, 64)})
+		rows = append(rows, []string{p.Process, strings.Join(p.Donors, ", "), num(p.FluxKgPerHaYr), fixed(p.Share, 3)})
 	}
 	if err := wrappedTable(ew, []string{"process", "donor pools", "flux", "share"}, "llrr", rows, []int{0, 30, 0, 0}); err != nil {
 		return err
@@ -201,7 +200,7 @@ func siteTable(w io.Writer, sum *forward.SiteSummary, kb *knowledge.Base) error 
 		} else {
 			src += " (" + t.Effect.Status + ")"
 		}
-		rows = append(rows, []string{t.Process, strconv.FormatFloat(t.Effect.Typical, 'g', 4, 64), fmtRange(t.Effect.Range), src})
+		rows = append(rows, []string{t.Process, sigG(t.Effect.Typical, 4), fmtRange(t.Effect.Range), src})
 	}
 	if err := wrappedTable(ew, []string{"process", "ε", "range", "sources"}, "lrll", rows, []int{0, 0, 0, 34}); err != nil {
 		return err
@@ -247,7 +246,7 @@ func mycorrhizaLine(s *forward.Site, kb *knowledge.Base) string {
 		if fp.Models != "" {
 			line += fmt.Sprintf(" (the fungal pool is modelled as %s)", fp.Models)
 		}
-		line += fmt.Sprintf(", fungal transfer ε %s ‰", strconv.FormatFloat(fp.EpsilonPermil, 'g', 4, 64))
+		line += fmt.Sprintf(", fungal transfer ε %s ‰", sigG(fp.EpsilonPermil, 4))
 	}
 	lu := s.LandUse
 	if lu == "" {
@@ -409,9 +408,9 @@ func sig3(v float64) string {
 		return "n/a"
 	}
 	if math.Abs(v) < 100 {
-		return strconv.FormatFloat(v, 'f', 2, 64)
+		return fixed(v, 2)
 	}
-	return strconv.FormatFloat(v, 'g', 4, 64)
+	return sigG(v, 4)
 }
 
 func siteFitTable(ew *errWriter, f SiteFitResult) error {

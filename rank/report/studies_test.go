@@ -23,13 +23,18 @@ import (
 
 var studyResults sync.Map // name → *rank.Result
 
-func explainStudy(t *testing.T, name string) *rank.Result {
+func studyResult(t *testing.T, name string) *rank.Result {
 	t.Helper()
-	if r, ok := studyResults.Load(name); ok {
+	return studyFileResult(t, filepath.Join("testdata", "studies", name+".yaml"))
+}
+
+// studyFileResult explains a study file once per test binary.
+func studyFileResult(t *testing.T, path string) *rank.Result {
+	t.Helper()
+	if r, ok := studyResults.Load(path); ok {
 		return r.(*rank.Result)
 	}
 	kb := testKB(t)
-	path := filepath.Join("testdata", "studies", name+".yaml")
 	data, err := os.ReadFile(path)
 	if err != nil {
 		t.Fatal(err)
@@ -48,7 +53,7 @@ func explainStudy(t *testing.T, name string) *rank.Result {
 	if err != nil {
 		t.Fatal(err)
 	}
-	studyResults.Store(name, r)
+	studyResults.Store(path, r)
 	return r
 }
 
@@ -83,9 +88,9 @@ func TestEmailLimitsOnStudies(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			var r *rank.Result
 			if tc.name == "demo" {
-				r = explainPath(t, demo)
+				r = studyFileResult(t, demo)
 			} else {
-				r = explainStudy(t, tc.name)
+				r = studyResult(t, tc.name)
 			}
 			got := render(t, r, FormatText)
 			n := words([]string{got})
@@ -111,39 +116,13 @@ func TestEmailLimitsOnStudies(t *testing.T) {
 	}
 }
 
-func explainPath(t *testing.T, path string) *rank.Result {
-	t.Helper()
-	if r, ok := studyResults.Load(path); ok {
-		return r.(*rank.Result)
-	}
-	kb := testKB(t)
-	data, err := os.ReadFile(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	st, err := study.Parse(path, data, kb, study.Options{}, os.ReadFile)
-	if err != nil {
-		t.Fatal(err)
-	}
-	set, err := rules.Default(kb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := rank.Explain(context.Background(), st, kb, set, rank.Options{Seed: 2, Draws: 16, MaxDraws: 16, Version: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	studyResults.Store(path, r)
-	return r
-}
-
 // When no candidate fits, every format says so before any ranking and
 // before any measurement advice (issue 13, item 3).
 func TestNoFitComesFirst(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the ranking engine")
 	}
-	r := explainStudy(t, "nofit")
+	r := studyResult(t, "nofit")
 	if !r.Comparisons[0].NoFit {
 		t.Fatalf("the impossible pattern fits (p = %g): the test study no longer tests the no-fit order", r.Comparisons[0].Hypotheses[0].Fit.P)
 	}
@@ -196,7 +175,7 @@ func TestCautionsInEveryFormat(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the ranking engine")
 	}
-	r := explainStudy(t, "clearcut")
+	r := studyResult(t, "clearcut")
 	for _, f := range ExplainFormats {
 		got := strings.Join(strings.Fields(render(t, r, f)), " ")
 		for _, want := range []string{"indicative, not proof", "licensed professionals"} {
@@ -214,7 +193,7 @@ func TestEmailManyComparisons(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the ranking engine")
 	}
-	base := explainStudy(t, "clearcut")
+	base := studyResult(t, "clearcut")
 	r := *base
 	r.Comparisons = nil
 	for i := range 4 {
@@ -267,5 +246,25 @@ func TestDemoGolden(t *testing.T) {
 		t.Run(f.format, func(t *testing.T) {
 			golden(t, f.file, []byte(render(t, r, f.format)))
 		})
+	}
+}
+
+// No format carries the slips issue 13 found: singular counts with plural
+// nouns, doubled articles, "= none", rate multipliers, or a clear shift
+// called small.
+func TestNoSlipsInAnyFormat(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs the ranking engine")
+	}
+	for _, name := range []string{"clearcut", "fertilizer", "series", "nofit"} {
+		r := studyResult(t, name)
+		for _, f := range []string{FormatText, FormatTable, FormatMarkdown} {
+			got := strings.Join(strings.Fields(render(t, r, f)), " ")
+			for _, bad := range []string{" 1 years", " 1 bits", "the a ", "the an ", "= none", "× rate", "small relative to", "about the same size", " ,", "((", "))"} {
+				if strings.Contains(got, bad) {
+					t.Errorf("%s, %s: holds %q", name, f, bad)
+				}
+			}
+		}
 	}
 }

@@ -42,7 +42,11 @@ func Table(w io.Writer, r *rank.Result, opt ExplainOptions) error {
 		ew.printf("\n%s\n", wrap("WARNING: "+s, 78))
 	}
 	for _, c := range r.Comparisons {
-		ew.printf("\n== %s (%s)\n\nObserved shifts (treatment − control)\n", c.Name, when(c.Years))
+		ew.printf("\n== %s (%s)\n", c.Name, when(c.Years))
+		if tw := treatmentWords(c.Treatment); tw != "" {
+			ew.printf("%s\n", wrap("treatment applied in every explanation: "+tw, 78))
+		}
+		ew.printf("\nObserved shifts (treatment − control)\n")
 		if err := observedTable(ew, c.Observed); err != nil {
 			return err
 		}
@@ -106,7 +110,7 @@ func rankingTables(ew *errWriter, c rank.ComparisonResult, opt ExplainOptions) e
 			if i >= opt.MaxMeasurements {
 				break
 			}
-			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64), costName(m.Cost), m.Method})
+			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, fixed(m.Bits, 2), costName(m.Cost), m.Method})
 		}
 		if err := wrappedTable(ew, []string{"#", "measurement", "bits", "cost", "method"}, "rlrll", rows, []int{0, 22, 0, 0, 30}); err != nil {
 			return err

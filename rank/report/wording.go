@@ -12,7 +12,6 @@ import (
 	"nlens/knowledge"
 	"nlens/rank"
 	"nlens/rank/study"
-	"nlens/rules"
 )
 
 // This file decides every word the reports choose from numbers: how
@@ -249,7 +248,9 @@ func noiseClause(obs []study.Observed) string {
 // (ammonium nitrate fertilizer at 60 kg N/ha per year, sampled twelve
 // years after it began), foliar δ15N was 3.1 ‰ higher (standard error
 // 0.5 ‰), while fungal and bulk-soil δ15N did not differ beyond noise."
-func patternSentence(c rank.ComparisonResult) string {
+// treatment says whether to name the treatment (the later comparisons of
+// a series share the first one's).
+func patternSentence(c rank.ComparisonResult, treatment bool) string {
 	var clauses []string
 	var noise []study.Observed
 	for _, o := range orderedObserved(c.Observed) {
@@ -257,14 +258,17 @@ func patternSentence(c rank.ComparisonResult) string {
 			noise = append(noise, o)
 			continue
 		}
-		clauses = append(clauses, shiftClause(o, len(clauses) == 0))
+		clauses = append(clauses, shiftClause(o, len(clauses) == 0 && treatment))
 	}
 	lead := "In " + quoteName(c.Name)
 	var ctx []string
-	if tw := treatmentWords(c.Treatment); tw != "" {
+	tw := treatmentWords(c.Treatment)
+	if tw != "" && treatment {
 		ctx = append(ctx, tw)
 	}
 	switch {
+	case c.Years != nil && tw != "" && !treatment:
+		ctx = append(ctx, yearsWords(*c.Years)+" after it")
 	case c.Years != nil && len(c.Treatment.Additions) > 0:
 		ctx = append(ctx, "sampled "+yearsWords(*c.Years)+" after it began")
 	case c.Years != nil && len(ctx) > 0:
@@ -303,6 +307,12 @@ func treatmentWhen(c rank.ComparisonResult) string {
 	return yearsWords(*c.Years) + " after the " + tw
 }
 
+// contextTagWords names the management tags that only set priors.
+var contextTagWords = map[string]string{
+	"limed": "liming", "drained": "drainage", "irrigated": "irrigation", "thinned": "thinning",
+	"tilled": "tillage", "fertilized": "fertilization", "harvested": "harvest",
+}
+
 // treatmentWords names the known treatment of a comparison: "ammonium
 // nitrate fertilizer at 60 kg N/ha per year", "clear-cut harvest", "fire
 // (moderate severity)"; "" when nothing was declared.
@@ -328,6 +338,16 @@ func treatmentWords(t rank.Treatment) string {
 			s += " of " + t.Severity + " severity"
 		}
 		parts = append(parts, s)
+	}
+	for _, tag := range t.Context {
+		if tag == "fertilized" && len(t.Additions) > 0 {
+			continue // the additions name the fertilizer
+		}
+		if w, ok := contextTagWords[tag]; ok {
+			parts = append(parts, w)
+		} else {
+			parts = append(parts, tag)
+		}
 	}
 	return joinAnd(parts)
 }
@@ -357,7 +377,7 @@ func yearsWords(y float64) string {
 	if y == math.Trunc(y) && y >= 1 && int(y) < len(words) {
 		return count(y, words[int(y)], "year", "years")
 	}
-	return count(y, strconv.FormatFloat(y, 'g', 3, 64), "year", "years")
+	return count(y, sigG(y, 3), "year", "years")
 }
 
 // quoteName puts a comparison's name in typographic quotes.
@@ -419,10 +439,10 @@ func newNamer(kb *knowledge.Base, c rank.ComparisonResult) namer {
 
 // sourceName is a source's label without its parenthetical detail.
 func (n namer) sourceName(id string) string {
-	if s, ok := n.kb.Source(strings.TrimPrefix(id, rank.SourcePrefix)); ok {
+	if s, ok := n.kb.Source(id); ok {
 		return cutParen(s.Label)
 	}
-	return strings.TrimPrefix(id, rank.SourcePrefix)
+	return id
 }
 
 // cutParen drops a trailing parenthetical: "nitrate fertilizer (Ca, K or Na
@@ -453,27 +473,13 @@ func (n namer) name(h rank.Hypothesis) string {
 
 // part names one response of a hypothesis with its direction.
 func (n namer) part(m rank.Magnitude) string {
-	if strings.HasPrefix(m.Candidate, rank.SourcePrefix) {
-		return "an undeclared input of " + n.sourceName(m.Candidate)
+	if m.Source != "" {
+		return "an undeclared input of " + n.sourceName(m.Source)
 	}
 	if h, ok := n.parts[m.Candidate]; ok && h.Label != "" {
 		return h.Label
 	}
 	return m.Direction + " " + m.Process
-}
-
-// sized is name with each part's magnitude: "more nitrification, about
-// 62 % of the NH4+ outflow (90 % interval 45–80 %) instead of 21 %, the
-// flux about 2.4 times its baseline".
-func (n namer) sized(h rank.Hypothesis) string {
-	if len(h.Magnitudes) == 0 {
-		return n.name(h)
-	}
-	var parts []string
-	for _, m := range h.Magnitudes {
-		parts = append(parts, n.part(m)+", "+magnitudeWords{m}.prose())
-	}
-	return strings.Join(parts, "; together with ")
 }
 
 // sizes words each part's magnitude for running text: "about 13 % of the
@@ -685,20 +691,6 @@ func posteriorCell(c rank.ComparisonResult, h rank.Hypothesis) string {
 		}
 	}
 	return "with no change"
-}
-
-// uniqueAdjustments drops repeated context rules (a pair carries the rules
-// of both its parts, often the same ones).
-func uniqueAdjustments(as []rules.Adjustment) []rules.Adjustment {
-	var out []rules.Adjustment
-	seen := map[string]bool{}
-	for _, a := range as {
-		if !seen[a.Rule] {
-			seen[a.Rule] = true
-			out = append(out, a)
-		}
-	}
-	return out
 }
 
 // fromMemory reports whether a reference has fields not checked against
