@@ -222,15 +222,19 @@ func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int, pi 
 		i := leading[k]
 		s := entries[i].s
 		rng := newRand(e.opt.Seed, e.stream, 3000+1000*uint64(pi)+uint64(k))
-		// values[o][t] over samples
-		values := make([][][]float64, pt.hi-pt.lo)
-		for o := range values {
-			values[o] = make([][]float64, len(times))
-		}
 		theta := make([]float64, len(s.knobs))
 		samples := [][2]int{{0, 0}}
 		if len(s.knobs) > 0 || s.nd > 1 {
 			samples = s.sample(pathSamples, rng)
+		}
+		// values[o][t] over samples, in one backing array per observable.
+		values := make([][][]float64, pt.hi-pt.lo)
+		for o := range values {
+			values[o] = make([][]float64, len(times))
+			flat := make([]float64, 0, len(times)*len(samples))
+			for t := range values[o] {
+				values[o][t] = flat[t*len(samples) : t*len(samples) : (t+1)*len(samples)]
+			}
 		}
 		for _, fd := range samples {
 			d := fd[1]

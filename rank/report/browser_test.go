@@ -52,6 +52,13 @@ func runChromium(t *testing.T, bin string, args ...string) {
 	}
 }
 
+// The thresholds below sit far from both sides: a blank page is one
+// colour with nothing inked, while the demo's page gave 9578 colours,
+// 20.1 % inked and 472 amber pixels at phone width, 11608, 23.0 % and
+// 2241 on a desktop, and a 351 kB PDF of 10 pages (Chromium 148, Debian
+// 12, December 2026; a pixel counts as amber within 24 of each channel,
+// for anti-aliased line edges).
+
 // TestHTMLInChromium renders the demo's HTML report in headless Chromium.
 // The screenshots must not be blank: more than 5 % of the pixels differ
 // from the page's background, they hold many colours, and the colour of

@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"nlens/rank"
+	"nlens/rank/study"
 )
 
 // Tolerance of the trajectory figure against the tables, in units of the
@@ -179,5 +180,44 @@ func TestPathAt(t *testing.T) {
 	}
 	if got := pathAt(ys, vs, 4); !math.IsNaN(got) {
 		t.Errorf("pathAt beyond the last time = %g, want NaN", got)
+	}
+}
+
+// TestObservationsAt: which observations a comparison's trajectories show.
+// A series of years is one treatment read at several times, so all its
+// years are drawn; a dose series' other levels had other treatments, and
+// a comparison outside any series shows only its own (hand-built results,
+// shifts invented).
+func TestObservationsAt(t *testing.T) {
+	cmp := func(name, series string, years, shift float64) rank.ComparisonResult {
+		return rank.ComparisonResult{Name: name, Series: series, Years: f64(years),
+			Observed: []study.Observed{{Observable: "foliage", Shift: shift, SE: 0.3}}}
+	}
+	for _, tc := range []struct {
+		name string
+		kind string
+		want []float64 // years drawn for the first comparison
+	}{
+		{"years", "years", []float64{1, 4}},
+		{"dose", "dose", []float64{1}},
+		{"none", "", []float64{1}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			series := "s"
+			if tc.kind == "" {
+				series = ""
+			}
+			r := &rank.Result{Comparisons: []rank.ComparisonResult{cmp("a", series, 1, 0.5), cmp("b", series, 4, 1.5)}}
+			if tc.kind != "" {
+				r.Series = []rank.SeriesResult{{Name: "s", Kind: tc.kind, Comparisons: []string{"a", "b"}}}
+			}
+			var got []float64
+			for _, p := range observationsAt(r, 0, "foliage") {
+				got = append(got, p.years)
+			}
+			if !slices.Equal(got, tc.want) {
+				t.Errorf("drawn at %v years, want %v", got, tc.want)
+			}
+		})
 	}
 }

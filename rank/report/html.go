@@ -105,6 +105,7 @@ li[id]:target { background: #fff3c4; }
   main { padding: 0.75rem 0.75rem 2rem; }
   table { font-size: 0.8rem; }
 }
+@page { margin: 16mm 14mm; }
 @media print {
   body { background: #fff; color: #000; font-size: 10.5pt; }
   main { max-width: none; padding: 0; }
