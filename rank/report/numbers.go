@@ -177,6 +177,7 @@ func percentRange(r []float64) string {
 	}
 	return g3(100*r[0]) + "–" + g3(100*r[1]) + " %"
 }
+
 // sigG prints a value with at most n significant digits, trailing zeros
 // dropped (settings, ε and δ in the knowledge tables).
 func sigG(v float64, n int) string { return strconv.FormatFloat(v, 'g', n, 64) }
