@@ -86,6 +86,8 @@ var (
 	mdImage    = regexp.MustCompile(`^!\[((?:[^\]\\]|\\.)*)\]\(([^()\s]+)\)$`)
 	mdOrdered  = regexp.MustCompile(`^[0-9]+\. `)
 	mdTableSep = regexp.MustCompile(`^\|(\s*:?-+:?\s*\|)+\s*$`)
+	// svgSize matches the fixed size of an SVG root, which CSS replaces.
+	svgSize = regexp.MustCompile(`\s(width|height)="[^"]*"`)
 )
 
 // convert turns the report's Markdown into HTML body content.
@@ -311,8 +313,10 @@ func svgInline(svg, alt string) string {
 	}
 	svg = svg[k:]
 	end := strings.IndexByte(svg, '>')
-	open := svg[:end]
-	open = regexp.MustCompile(`\s(width|height)="[^"]*"`).ReplaceAllString(open, "")
+	if end < 0 {
+		return ""
+	}
+	open := svgSize.ReplaceAllString(svg[:end], "")
 	open = strings.Join(strings.Fields(open), " ")
 	body := strings.TrimRight(svg[end+1:], "\n")
 	// No tabs (gonum/plot indents attributes with them): the terminal

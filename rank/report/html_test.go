@@ -337,3 +337,18 @@ func TestHTMLBundle(t *testing.T) {
 		t.Error("the standalone page mentions a PNG file it does not come with")
 	}
 }
+
+func TestSVGInline(t *testing.T) {
+	for _, tc := range []struct{ name, svg, want string }{
+		{"gonum's header", "<?xml version=\"1.0\"?>\n<!-- Generated -->\n<svg width=\"10pt\" height=\"5pt\" viewBox=\"0 0 10 5\"\n\txmlns=\"http://www.w3.org/2000/svg\">\n<text\n\tstyle=\"font-family:Liberation Serif;font-size:3px\">a&lt;b</text>\n</svg>\n",
+			"<svg viewBox=\"0 0 10 5\" xmlns=\"http://www.w3.org/2000/svg\" role=\"img\" aria-label=\"x &amp; y\">\n<text\n style=\"font-family:'Liberation Serif','Times New Roman',Times,serif;font-size:3px\">a&lt;b</text>\n</svg>\n"},
+		{"no svg", "<p>", ""},
+		{"cut short", "<svg width=", ""},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			if got := svgInline(tc.svg, "x & y"); got != tc.want {
+				t.Errorf("got  %q\nwant %q", got, tc.want)
+			}
+		})
+	}
+}
