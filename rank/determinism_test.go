@@ -85,11 +85,11 @@ func TestPosteriorsAreProbabilities(t *testing.T) {
 		t.Errorf("posteriors sum to %.12f", sum)
 	}
 	ms := r.Comparisons[0].Measurements
-	// sorted by information, cheaper first among those within bitsTie
-	// of the best of their run: none is bitsTie above an earlier one
+	// sorted by information, cheaper first among those within BitsTie
+	// of the best of their run: none is BitsTie above an earlier one
 	for i := range ms {
 		for j := i + 1; j < len(ms); j++ {
-			if ms[j].Bits >= ms[i].Bits+bitsTie {
+			if ms[j].Bits >= ms[i].Bits+BitsTie {
 				t.Errorf("measurement %d (%.3f bits) listed after %d (%.3f bits)", j, ms[j].Bits, i, ms[i].Bits)
 			}
 		}

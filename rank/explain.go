@@ -892,7 +892,7 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 	// measured).
 	best := len(out) - 1
 	for k := range out {
-		if len(out[k].Measurements) > 0 && (len(out[best].Measurements) == 0 || out[k].Measurements[0].Bits > out[best].Measurements[0].Bits+bitsTie) {
+		if len(out[k].Measurements) > 0 && (len(out[best].Measurements) == 0 || out[k].Measurements[0].Bits > out[best].Measurements[0].Bits+BitsTie) {
 			best = k
 		}
 	}

@@ -115,16 +115,17 @@ func (e *engine) nextMeasurements(ctx context.Context, cr *ComparisonResult, ent
 	return nil
 }
 
-// bitsTie is the difference in expected information below which two
-// measurements count as equally informative: about twice the spread of a
-// measurement's bits over seeds on the demo study (0.03–0.05 bit with 128
-// samples per hypothesis), so that the order of near-equals does not hang
-// on the seed.
-const bitsTie = 0.1
+// BitsTie is the difference in expected information below which two
+// measurements count as equally informative. A measurement's bits vary
+// over seeds by an sd of 0.03–0.05 bit on the demo study (128 samples per
+// hypothesis), so the difference of two has an sd of up to √2·0.05 = 0.07
+// bit; two sd of that, 0.14, rounded up: the order of near-equals then
+// does not hang on the seed.
+const BitsTie = 0.15
 
-// orderMeasurements sorts by expected information, and within each run of
-// measurements less than bitsTie below the run's first, the cheaper first,
-// then in catalogue order.
+// orderMeasurements sorts by expected information (equal bits in
+// catalogue order), and within each run of measurements less than BitsTie
+// below the run's first, the cheaper first.
 func orderMeasurements(ms []Measurement, index map[string]int) {
 	sort.SliceStable(ms, func(a, b int) bool {
 		if ms[a].Bits != ms[b].Bits {
@@ -134,7 +135,7 @@ func orderMeasurements(ms []Measurement, index map[string]int) {
 	})
 	for i := 0; i < len(ms); {
 		j := i + 1
-		for j < len(ms) && ms[i].Bits-ms[j].Bits < bitsTie {
+		for j < len(ms) && ms[i].Bits-ms[j].Bits < BitsTie {
 			j++
 		}
 		run := ms[i:j]
@@ -142,7 +143,7 @@ func orderMeasurements(ms []Measurement, index map[string]int) {
 			if run[a].Cost != run[b].Cost {
 				return run[a].Cost < run[b].Cost
 			}
-			return index[run[a].ID] < index[run[b].ID]
+			return false // same cost: by bits, as sorted above
 		})
 		i = j
 	}

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"math"
+	"nlens/rank"
 	"strings"
 	"testing"
 	"time"
@@ -95,9 +96,9 @@ func TestExplainJSONContract(t *testing.T) {
 				t.Errorf("measurement lacks %q", k)
 			}
 		}
-		// Sorted by bits; measurements within 0.1 bit of each other may
-		// come in order of cost (rank.orderMeasurements).
-		if b := mm["bits"].(float64); b > prevBits+0.1 {
+		// Sorted by bits; measurements within rank.BitsTie of each other
+		// may come in order of cost (rank.orderMeasurements).
+		if b := mm["bits"].(float64); b > prevBits+rank.BitsTie {
 			t.Errorf("measurements not sorted by bits (%g after %g)", b, prevBits)
 		} else {
 			prevBits = math.Min(prevBits, b)

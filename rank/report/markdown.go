@@ -213,7 +213,7 @@ func rankingSection(b *strings.Builder, c rank.ComparisonResult, kb *knowledge.B
 	if len(c.Measurements) == 0 {
 		b.WriteString("No catalogue measurement is left that the study has not already made.\n\n")
 	} else {
-		b.WriteString("Ranked by expected information gain: how much, on average, the measurement would tell about which explanation holds, in bits (1 bit settles an even two-way choice); within 0.1 bit of each other the cheaper comes first.")
+		b.WriteString("Ranked by expected information gain: how much, on average, the measurement would tell about which explanation holds, in bits (1 bit settles an even two-way choice); within " + sigG(rank.BitsTie, 2) + " bit of each other the cheaper comes first.")
 		if c.MeasurementsAt != "" {
 			fmt.Fprintf(b, " Scored as at %s, where a measurement tells most (archived samples of that time, or the same design elsewhere).", mdEscape(quoteName(c.MeasurementsAt)))
 		}

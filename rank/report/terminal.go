@@ -101,7 +101,7 @@ func rankingTables(ew *errWriter, c rank.ComparisonResult, opt ExplainOptions) e
 		}
 	}
 	if len(c.Measurements) > 0 {
-		ew.printf("\nNext measurements (expected information about which explanation holds;\nwithin 0.1 bit of each other the cheaper first)\n")
+		ew.printf("\nNext measurements (expected information about which explanation holds;\nwithin %s bit of each other the cheaper first)\n", sigG(rank.BitsTie, 2))
 		if c.MeasurementsAt != "" {
 			ew.printf("%s\n", wrap(fmt.Sprintf("(as at %s, where a measurement tells most: archived samples of that time, or the same design elsewhere)", quoteName(c.MeasurementsAt)), 78))
 		}
