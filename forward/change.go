@@ -521,8 +521,20 @@ func (r *Run) Steady(m *Model, base *Params, c *Change, withO bool, dst *State) 
 // Trajectory returns the state at each of the times (years since the
 // change, ascending) and the parameters in force at each.
 func (r *Run) Trajectory(m *Model, base *Params, c *Change, x0 *State, times []float64, withO bool) ([]State, []Params, error) {
-	states := make([]State, len(times))
-	params := make([]Params, len(times))
+	return r.TrajectoryInto(m, base, c, x0, times, withO, nil, nil)
+}
+
+// TrajectoryInto is Trajectory writing into states and params, reused
+// when they are long enough (their buffers too), so that many
+// trajectories of one site allocate once.
+func (r *Run) TrajectoryInto(m *Model, base *Params, c *Change, x0 *State, times []float64, withO bool, states []State, params []Params) ([]State, []Params, error) {
+	if cap(states) < len(times) {
+		states = make([]State, len(times))
+	}
+	if cap(params) < len(times) {
+		params = make([]Params, len(times))
+	}
+	states, params = states[:len(times)], params[:len(times)]
 	var cur State
 	if err := c.ApplyMoves(m.Site, x0, &cur); err != nil {
 		return nil, nil, err

@@ -237,16 +237,19 @@ func (e *engine) paths(cr *ComparisonResult, entries []entry, leading []int, pi 
 				values[o][t] = flat[t*len(samples) : t*len(samples) : (t+1)*len(samples)]
 			}
 		}
+		var stBuf []forward.State
+		var parBuf []forward.Params
 		for _, fd := range samples {
 			d := fd[1]
 			if len(s.knobs) > 0 {
 				theta = s.fineTheta(fd[0], theta)
 			}
 			e.changeFor(w, d, pi, s.knobs, theta)
-			states, params, err := w.run.Trajectory(w.model, &e.draws[d].params, &w.change, &e.base[d], times, false)
+			states, params, err := w.run.TrajectoryInto(w.model, &e.draws[d].params, &w.change, &e.base[d], times, false, stBuf, parBuf)
 			if err != nil {
 				continue
 			}
+			stBuf, parBuf = states, params
 			for o := pt.lo; o < pt.hi; o++ {
 				ob := e.obs[o]
 				if ob.Kind == forward.KindDelta18 {
