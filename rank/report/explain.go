@@ -65,9 +65,9 @@ func observedTable(w io.Writer, obs []study.Observed) error {
 			shift, se = plusSigned(o.Shift, 3), signed(o.SE, 3)
 			ctl, trt = num(o.Control.Mean), num(o.Treatment.Mean)
 		}
-		rows = append(rows, []string{o.Observable, ctl, trt, shift, se, unit})
+		rows = append(rows, []string{o.Observable, ctl, trt, shift, se, unit, shiftStrength(o.Shift, o.SE).String()})
 	}
-	return table(w, []string{"observable", "control", "treatment", "shift", "SE", "unit"}, "lrrrrl", rows)
+	return table(w, []string{"observable", "control", "treatment", "shift", "SE", "unit", "reading"}, "lrrrrll", rows)
 }
 
 // sortedKeys returns a map's keys in order.

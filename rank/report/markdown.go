@@ -107,7 +107,7 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 	fmt.Fprintf(b, "%s.\n\n", capitalize(when(c.Years)))
 
 	b.WriteString("### Observed shifts\n\n")
-	b.WriteString("Treatment minus control; δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); SE is Welch's standard error of the difference.\n\n")
+	b.WriteString("Treatment minus control; δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); SE is Welch's standard error of the difference; reading: clear at |shift| ≥ 3 SE, small but detectable at 2–3 SE, within noise below 2 SE.\n\n")
 	var rows [][]string
 	for _, o := range c.Observed {
 		dec := 2
@@ -118,9 +118,9 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 			ctl, trt = num(o.Control.Mean), num(o.Treatment.Mean)
 		}
 		rows = append(rows, []string{o.Observable, ctl, trt, plusSigned(o.Shift, dec), signed(o.SE, dec), unit,
-			fmt.Sprintf("%d / %d", o.Control.N, o.Treatment.N)})
+			fmt.Sprintf("%d / %d", o.Control.N, o.Treatment.N), shiftStrength(o.Shift, o.SE).String()})
 	}
-	writeTable(b, []string{"observable", "control", "treatment", "shift", "SE", "unit", "n (control / treatment)"}, "lrrrrlr", rows)
+	writeTable(b, []string{"observable", "control", "treatment", "shift", "SE", "unit", "n (control / treatment)", "reading"}, "lrrrrlrl", rows)
 
 	b.WriteString("### Explanations\n\n")
 	if c.Series != "" {

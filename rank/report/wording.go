@@ -40,6 +40,18 @@ const (
 	clearShift
 )
 
+// String is the rule's word: "clear", "small but detectable", "within
+// noise" (the "reading" column of the observed-shifts tables).
+func (s strength) String() string {
+	switch s {
+	case clearShift:
+		return "clear"
+	case smallDetectable:
+		return "small but detectable"
+	}
+	return "within noise"
+}
+
 // shiftStrength applies the rule to a shift and its standard error; a
 // shift without a positive SE counts as clear when it is not zero.
 func shiftStrength(shift, se float64) strength {
