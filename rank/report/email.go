@@ -424,6 +424,8 @@ func nextParagraph(c rank.ComparisonResult, n namer, g *glosses, full bool, lead
 // nitrification", and "if nothing changed" for none.
 func (n namer) ifClause(h rank.Hypothesis, full bool) string {
 	switch {
+	case h.ID == rank.NoneID && n.treated:
+		return "if the treatment acted alone"
 	case h.ID == rank.NoneID:
 		return "if nothing changed"
 	case full:
@@ -435,8 +437,11 @@ func (n namer) ifClause(h rank.Hypothesis, full bool) string {
 // short names a hypothesis briefly, for "if … is behind the shift".
 func (n namer) short(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
-		if h.ID == rank.NoneID {
+		switch {
+		case h.ID == rank.NoneID && n.treated:
 			return "no response beyond the treatment"
+		case h.ID == rank.NoneID:
+			return "no change in N cycling"
 		}
 		return h.Label
 	}

@@ -443,10 +443,13 @@ func components(c rank.ComparisonResult) map[string]rank.Hypothesis {
 type namer struct {
 	kb    *knowledge.Base
 	parts map[string]rank.Hypothesis
+	// treated is set when the comparison declares a treatment that acts on
+	// the model, so "none" means the treatment acting alone.
+	treated bool
 }
 
 func newNamer(kb *knowledge.Base, c rank.ComparisonResult) namer {
-	return namer{kb: kb, parts: components(c)}
+	return namer{kb: kb, parts: components(c), treated: !c.Treatment.Empty()}
 }
 
 // sourceName is a source's label without its parenthetical detail.
