@@ -75,7 +75,7 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 		fmt.Fprintf(&b, "> **%s**\n\n", mdEscape(s))
 	}
 	b.WriteString("## Summary\n\n")
-	g := glosses{}
+	g := glosses{report: true}
 	for _, u := range summaryUnits(r) {
 		fmt.Fprintf(&b, "%s\n\n", mdEscape(u.paragraph(kb, &g, fullDetail)))
 	}
