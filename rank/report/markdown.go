@@ -72,7 +72,7 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 	fmt.Fprintf(&b, "*Draft report written by nlens %s from the study file; check every statement before sending it on.*\n\n", mdEscape(r.Version))
 
 	for _, s := range noFitStatements(r) {
-		fmt.Fprintf(&b, "> **%s**\n\n", mdEscape(s))
+		fmt.Fprintf(&b, "**%s**\n\n", mdEscape(s))
 	}
 	b.WriteString("## Summary\n\n")
 	g := glosses{report: true}
