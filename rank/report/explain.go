@@ -65,9 +65,13 @@ func observedTable(w io.Writer, obs []study.Observed) error {
 			shift, se = plusSigned(o.Shift, 3), signed(o.SE, 3)
 			ctl, trt = num(o.Control.Mean), num(o.Treatment.Mean)
 		}
-		rows = append(rows, []string{o.Observable, ctl, trt, shift, se, unit, shiftStrength(o.Shift, o.SE).String()})
+		rows = append(rows, []string{o.Observable, ctl, trt, shift, se, unit, shiftStrength(o.Shift, o.SE).short()})
 	}
-	return table(w, []string{"observable", "control", "treatment", "shift", "SE", "unit", "reading"}, "lrrrrll", rows)
+	if err := table(w, []string{"observable", "control", "treatment", "shift", "SE", "unit", "reading"}, "lrrrrll", rows); err != nil {
+		return err
+	}
+	_, err := io.WriteString(w, "(reading: clear at |shift| ≥ 3 SE, detectable at 2–3 SE, noise below 2 SE)\n")
+	return err
 }
 
 // sortedKeys returns a map's keys in order.

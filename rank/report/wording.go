@@ -52,6 +52,18 @@ func (s strength) String() string {
 	return "within noise"
 }
 
+// short is the word for a narrow table column: "clear", "detectable",
+// "noise".
+func (s strength) short() string {
+	switch s {
+	case clearShift:
+		return "clear"
+	case smallDetectable:
+		return "detectable"
+	}
+	return "noise"
+}
+
 // shiftStrength applies the rule to a shift and its standard error; a
 // shift without a positive SE counts as clear when it is not zero.
 func shiftStrength(shift, se float64) strength {
