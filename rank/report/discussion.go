@@ -419,6 +419,9 @@ func (d *drafter) pattern(c rank.ComparisonResult) patternText {
 	}
 	when := " " + treatmentWhen(c)
 	if len(parts) == 0 {
+		if len(unclear) == 1 {
+			return patternText{text: "the difference in " + unclear[0] + when}
+		}
 		return patternText{text: "the differences in " + joinAnd(unclear) + when, plural: true}
 	}
 	text := joinAnd(parts) + when

@@ -234,7 +234,7 @@ func (u summaryUnit) paragraph(kb *knowledge.Base, g *glosses, level detail) str
 	n := newNamer(kb, u.ranked)
 	parts = append(parts, leadSentences(u.ranked, n, g, level))
 	if level >= namedDetail && !u.ranked.NoFit {
-		if s := nextSentence(u.ranked, n, level == fullDetail); s != "" {
+		if s := nextSentence(u.ranked, n, level == fullDetail, g.report); s != "" {
 			parts = append(parts, s)
 		}
 	}
@@ -249,6 +249,9 @@ func leadSentences(c rank.ComparisonResult, n namer, g *glosses, level detail) s
 	}
 	top := c.Hypotheses[0]
 	if c.NoFit {
+		if g.report {
+			return fmt.Sprintf("Even the closest explanation, %s, fails the fit check (%s), so the ranking should not be read as support for any candidate.", n.name(top), pValue(top.Fit.P))
+		}
 		return fmt.Sprintf("Even the closest explanation, %s, fails the fit check (%s), so I would not read anything into the ranking yet.", n.name(top), pValue(top.Fit.P))
 	}
 	second := 0.0
@@ -310,16 +313,19 @@ func anyStandsOut(obs []study.Observed) bool {
 
 // nextSentence recommends the measurement that would best separate the
 // leading explanations, with what each predicts.
-func nextSentence(c rank.ComparisonResult, n namer, predictions bool) string {
+func nextSentence(c rank.ComparisonResult, n namer, predictions, report bool) string {
 	if len(c.Measurements) == 0 || c.Measurements[0].Bits < minUsefulBits {
 		return "No measurement in the nlens catalogue would separate these explanations much; more replicates of what was already measured may help more."
 	}
 	m := c.Measurements[0]
-	lead := "To tell them apart, I would measure"
+	lead, verb := "To tell them apart", "I would measure %s next (%s cost)"
 	if len(c.Hypotheses) > 0 && c.Hypotheses[0].Posterior >= 0.9 {
-		lead = "To pin down its size, I would measure"
+		lead = "To pin down its size"
 	}
-	s := fmt.Sprintf("%s %s next (%s cost)", lead, m.Label, costName(m.Cost))
+	if report {
+		verb = "the most useful next measurement is %s (%s cost)"
+	}
+	s := lead + ", " + fmt.Sprintf(verb, m.Label, costName(m.Cost))
 	if a, b, z := separation(m, namedIDs(c)); predictions && a != "" && z > 0 {
 		ha, _ := hypothesisByID(c, a)
 		hb, _ := hypothesisByID(c, b)
@@ -329,7 +335,11 @@ func nextSentence(c rank.ComparisonResult, n namer, predictions bool) string {
 }
 
 // glosses remembers which terms have been explained already.
-type glosses struct{ posterior, bits bool }
+type glosses struct {
+	posterior, bits bool
+	// report writes for a report rather than a reply: no first person.
+	report bool
+}
 
 func (g *glosses) posteriorGloss() string {
 	if g.posterior {
@@ -424,6 +434,8 @@ func nextParagraph(c rank.ComparisonResult, n namer, g *glosses, full bool, lead
 // nitrification", and "if nothing changed" for none.
 func (n namer) ifClause(h rank.Hypothesis, full bool) string {
 	switch {
+	case h.ID == rank.NoneID && n.treated:
+		return "if the treatment acted alone"
 	case h.ID == rank.NoneID:
 		return "if nothing changed"
 	case full:
@@ -435,8 +447,11 @@ func (n namer) ifClause(h rank.Hypothesis, full bool) string {
 // short names a hypothesis briefly, for "if … is behind the shift".
 func (n namer) short(h rank.Hypothesis) string {
 	if len(h.Magnitudes) == 0 {
-		if h.ID == rank.NoneID {
+		switch {
+		case h.ID == rank.NoneID && n.treated:
 			return "no response beyond the treatment"
+		case h.ID == rank.NoneID:
+			return "no change in N cycling"
 		}
 		return h.Label
 	}

@@ -28,9 +28,13 @@ func observedTable(w io.Writer, obs []study.Observed) error {
 		if o.NoLevels() {
 			ctl, trt = "—", "—" // a shift from a paper: no group levels
 		}
-		rows = append(rows, []string{o.Observable, ctl, trt, shift, se, unit})
+		rows = append(rows, []string{o.Observable, ctl, trt, shift, se, unit, shiftStrength(o.Shift, o.SE).short()})
 	}
-	return table(w, []string{"observable", "control", "treatment", "shift", "SE", "unit"}, "lrrrrl", rows)
+	if err := table(w, []string{"observable", "control", "treatment", "shift", "SE", "unit", "reading"}, "lrrrrll", rows); err != nil {
+		return err
+	}
+	_, err := io.WriteString(w, "(reading: clear at |shift| ≥ 3 SE, detectable at 2–3 SE, noise below 2 SE)\n")
+	return err
 }
 
 // sortedKeys returns a map's keys in order.

@@ -72,10 +72,10 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 	fmt.Fprintf(&b, "*Draft report written by nlens %s from the study file; check every statement before sending it on.*\n\n", mdEscape(r.Version))
 
 	for _, s := range noFitStatements(r) {
-		fmt.Fprintf(&b, "> **%s**\n\n", mdEscape(s))
+		fmt.Fprintf(&b, "**%s**\n\n", mdEscape(s))
 	}
 	b.WriteString("## Summary\n\n")
-	g := glosses{}
+	g := glosses{report: true}
 	for _, u := range summaryUnits(r) {
 		fmt.Fprintf(&b, "%s\n\n", mdEscape(u.paragraph(kb, &g, fullDetail)))
 	}
@@ -131,10 +131,11 @@ func comparisonHead(b *strings.Builder, c rank.ComparisonResult) {
 	fmt.Fprintf(b, "%s.\n\n", capitalize(when(c.Years)))
 
 	b.WriteString("### Observed shifts\n\n")
+	reading := "reading: clear at |shift| ≥ 3 SE, small but detectable at 2–3 SE, within noise below 2 SE."
 	if c.ShiftsOnly {
-		b.WriteString("Treatment minus control as given (from a paper, without group levels); δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control).\n\n")
+		b.WriteString("Treatment minus control as given (from a paper, without group levels); δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); " + reading + "\n\n")
 	} else {
-		b.WriteString("Treatment minus control; δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); SE is Welch's standard error of the difference.\n\n")
+		b.WriteString("Treatment minus control; δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); SE is Welch's standard error of the difference; " + reading + "\n\n")
 	}
 	var rows [][]string
 	for _, o := range c.Observed {
@@ -149,9 +150,9 @@ func comparisonHead(b *strings.Builder, c rank.ComparisonResult) {
 		if o.NoLevels() {
 			ctl, trt, ns = "—", "—", "—" // a shift as given in a paper
 		}
-		rows = append(rows, []string{o.Observable, ctl, trt, plusSigned(o.Shift, dec), signed(o.SE, dec), unit, ns})
+		rows = append(rows, []string{o.Observable, ctl, trt, plusSigned(o.Shift, dec), signed(o.SE, dec), unit, ns, shiftStrength(o.Shift, o.SE).String()})
 	}
-	writeTable(b, []string{"observable", "control", "treatment", "shift", "SE", "unit", "n (control / treatment)"}, "lrrrrlr", rows)
+	writeTable(b, []string{"observable", "control", "treatment", "shift", "SE", "unit", "n (control / treatment)", "reading"}, "lrrrrlrl", rows)
 }
 
 // rankingSection writes the explanations, predictions and next

@@ -203,6 +203,7 @@ func TestEmailManyComparisons(t *testing.T) {
 		}
 	}
 	got := render(t, &r, FormatText)
+	t.Logf("8 comparisons: %d words, %d summarised", words([]string{got}), strings.Count(got, "\nIn “"))
 	if n := words([]string{got}); n > emailMaxMany {
 		t.Errorf("8 comparisons in %d words, want ≤ %d", n, emailMaxMany)
 	}

@@ -40,6 +40,30 @@ const (
 	clearShift
 )
 
+// String is the rule's word: "clear", "small but detectable", "within
+// noise" (the "reading" column of the observed-shifts tables).
+func (s strength) String() string {
+	switch s {
+	case clearShift:
+		return "clear"
+	case smallDetectable:
+		return "small but detectable"
+	}
+	return "within noise"
+}
+
+// short is the word for a narrow table column: "clear", "detectable",
+// "noise".
+func (s strength) short() string {
+	switch s {
+	case clearShift:
+		return "clear"
+	case smallDetectable:
+		return "detectable"
+	}
+	return "noise"
+}
+
 // shiftStrength applies the rule to a shift and its standard error; a
 // shift without a positive SE counts as clear when it is not zero.
 func shiftStrength(shift, se float64) strength {
@@ -431,10 +455,13 @@ func components(c rank.ComparisonResult) map[string]rank.Hypothesis {
 type namer struct {
 	kb    *knowledge.Base
 	parts map[string]rank.Hypothesis
+	// treated is set when the comparison declares a treatment that acts on
+	// the model, so "none" means the treatment acting alone.
+	treated bool
 }
 
 func newNamer(kb *knowledge.Base, c rank.ComparisonResult) namer {
-	return namer{kb: kb, parts: components(c)}
+	return namer{kb: kb, parts: components(c), treated: !c.Treatment.Empty()}
 }
 
 // sourceName is a source's label without its parenthetical detail.
