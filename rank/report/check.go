@@ -78,7 +78,7 @@ func appliedTreatment(st *study.Study, c *study.Comparison, kb *knowledge.Base) 
 				d += "; enters as " + strings.Join(pools, " and ")
 			}
 		}
-		out = append(out, fmt.Sprintf("applied in every hypothesis: addition of %s, %s kg N/ha/yr (%s)", label, num(a.RateKgPerHaYr), d))
+		out = append(out, fmt.Sprintf("applied in every hypothesis: addition of %s, %s kg N/ha/yr (%s)", label, sigG(a.RateKgPerHaYr, 4), d))
 	}
 	for _, tag := range c.Management {
 		m, ok := kb.Management(tag)
