@@ -104,7 +104,11 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb *knowledge.Base, ci citer, opt MarkdownOptions, plan []figureSpec) {
 	n := newNamer(kb, c)
 	fmt.Fprintf(b, "## Comparison: %s\n\n", mdEscape(plain(c.Name)))
-	fmt.Fprintf(b, "%s.\n\n", capitalize(when(c.Years)))
+	fmt.Fprintf(b, "%s.", capitalize(when(c.Years)))
+	if tw := treatmentWords(c.Treatment); tw != "" {
+		fmt.Fprintf(b, " Treatment applied in every explanation: %s.", mdEscape(tw))
+	}
+	b.WriteString("\n\n")
 
 	b.WriteString("### Observed shifts\n\n")
 	b.WriteString("Treatment minus control; δ15N and δ18O in ‰, pools and fluxes as ln(treatment/control); SE is Welch's standard error of the difference; reading: clear at |shift| ≥ 3 SE, small but detectable at 2–3 SE, within noise below 2 SE.\n\n")
@@ -126,7 +130,7 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 	if c.Series != "" {
 		fmt.Fprintf(b, "This comparison belongs to the series %s: the explanations below are the series' joint ranking, with one response for all its comparisons, and the predicted shifts are this comparison's.\n\n", mdEscape(quoteName(c.Series)))
 	}
-	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: best value with its 90 % credible interval. Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
+	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: posterior median with its 90 % credible interval (≤ or ≥ where it reaches the prior's bound), “was” the site's baseline, and the change of that flux at sampling. Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
 	rows = rows[:0]
 	for i, h := range c.Hypotheses {
 		if i >= opt.MaxHypotheses {
