@@ -128,7 +128,11 @@ func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb 
 // comparisonHead writes a comparison's heading and observed shifts.
 func comparisonHead(b *strings.Builder, c rank.ComparisonResult) {
 	fmt.Fprintf(b, "## Comparison: %s\n\n", mdEscape(plain(c.Name)))
-	fmt.Fprintf(b, "%s.\n\n", capitalize(when(c.Years)))
+	fmt.Fprintf(b, "%s.", capitalize(when(c.Years)))
+	if tw := treatmentWords(c.Treatment); tw != "" {
+		fmt.Fprintf(b, " Treatment applied in every explanation: %s.", mdEscape(tw))
+	}
+	b.WriteString("\n\n")
 
 	b.WriteString("### Observed shifts\n\n")
 	reading := "reading: clear at |shift| ≥ 3 SE, small but detectable at 2–3 SE, within noise below 2 SE."
@@ -161,7 +165,7 @@ func rankingSection(b *strings.Builder, c rank.ComparisonResult, kb *knowledge.B
 	n := newNamer(kb, c)
 	var rows [][]string
 	b.WriteString("### Explanations\n\n")
-	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: posterior median with its 90 % credible interval; “was” is the baseline. Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
+	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: posterior median with its 90 % credible interval (≤ or ≥ where it reaches the prior's bound), “was” the site's baseline, and the change of that flux at sampling (for a pulse, while it lasts). Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
 	rows = rows[:0]
 	for i, h := range c.Hypotheses {
 		if i >= opt.MaxHypotheses {
