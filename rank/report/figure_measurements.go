@@ -2,7 +2,6 @@ package report
 
 import (
 	"fmt"
-	"strconv"
 
 	"nlens/knowledge"
 	"nlens/rank"
@@ -33,7 +32,7 @@ func measurementsFigure(c rank.ComparisonResult) (*figure, error) {
 				continue
 			}
 			row := float64(len(rows))
-			rows = append(rows, fmt.Sprintf("%s (%s bits)", m.Label, strconv.FormatFloat(m.Bits, 'f', 2, 64)))
+			rows = append(rows, fmt.Sprintf("%s (%s)", m.Label, count(m.Bits, fixed(m.Bits, 2), "bit", "bits")))
 			for j, h := range hs {
 				p, ok := m.Predicted[h.ID]
 				if !ok {

@@ -176,7 +176,11 @@ func trajectoriesFigure(r *rank.Result, ci int) (*figure, error) {
 		}
 	}
 	slices.Sort(obsYears)
-	obsLabel := "observed shift ± 1 SE at " + joinAnd(fmtYears(obsYears)) + " years"
+	unit := "years"
+	if len(obsYears) == 1 && obsYears[0] == 1 {
+		unit = "year"
+	}
+	obsLabel := "observed shift ± 1 SE at " + joinAnd(fmtYears(obsYears)) + " " + unit
 	if logTime {
 		obsLabel = "observed long-standing contrast ± 1 SE (shown at the right)"
 	}
