@@ -22,6 +22,8 @@ type scored struct {
 	nd, no int   // draws, observables
 	// pred[(f·nd + d)·no + o]: predicted shift at fine point f, draw d.
 	pred []float64
+	// mom caches moments() for the current q (reset by likelihood).
+	mom []Moments
 	// q[f·nd + d]: posterior weight within the hypothesis (summing to 1;
 	// exponentiated once, as every summary uses it).
 	q []float64
@@ -313,6 +315,7 @@ func (s *scored) likelihood(e *engine, none *scored) {
 		mx = math.Max(mx, x)
 	}
 	s.q = logq // reused in place
+	s.mom = nil
 	if math.IsInf(mx, -1) {
 		s.logZ = mx
 		clear(s.q)
@@ -342,6 +345,9 @@ func (s *scored) likelihood(e *engine, none *scored) {
 // moments returns the posterior mean and sd of each observed observable's
 // predicted shift.
 func (s *scored) moments() []Moments {
+	if s.mom != nil {
+		return s.mom // callers read, never write, the moments
+	}
 	out := make([]Moments, s.no)
 	for i, q := range s.q {
 		if q == 0 {
@@ -356,6 +362,7 @@ func (s *scored) moments() []Moments {
 	for o := range out {
 		out[o].SD = math.Sqrt(math.Max(0, out[o].SD-out[o].Mean*out[o].Mean))
 	}
+	s.mom = out
 	return out
 }
 
