@@ -278,6 +278,11 @@ func (s *scored) likelihood(e *engine, none *scored) {
 		norm += -0.5 * math.Log(2*math.Pi*e.variance[o])
 	}
 	mean := make([]float64, no)
+	halfInv := make([]float64, no) // 0.5/variance
+	for o := range no {
+		halfInv[o] = 0.5 / e.variance[o]
+	}
+	shift := e.shift[:no]
 	w := make([]float64, nd)
 	for d, lw := range s.logw {
 		w[d] = math.Exp(lw)
@@ -286,16 +291,19 @@ func (s *scored) likelihood(e *engine, none *scored) {
 		clear(mean)
 		for d := range nd {
 			var ll float64
-			p := s.pred[(f*nd+d)*no:]
-			var p0 []float64
+			p := s.pred[(f*nd+d)*no : (f*nd+d+1)*no]
 			if none != nil {
-				p0 = none.pred[min(d, none.nd-1)*no:]
-			}
-			for o := range no {
-				r := e.shift[o] - p[o]
-				ll -= 0.5 * r * r / e.variance[o]
-				if p0 != nil {
-					mean[o] += w[d] * (p[o] - p0[o])
+				p0 := none.pred[min(d, none.nd-1)*no:][:no]
+				wd := w[d]
+				for o, v := range p {
+					r := shift[o] - v
+					ll -= r * r * halfInv[o]
+					mean[o] += wd * (v - p0[o])
+				}
+			} else {
+				for o, v := range p {
+					r := shift[o] - v
+					ll -= r * r * halfInv[o]
 				}
 			}
 			if math.IsNaN(ll) {
@@ -312,7 +320,9 @@ func (s *scored) likelihood(e *engine, none *scored) {
 	// Normalise: q = exp(logq − max)/Σ, ln Z = max + ln Σ (one exp each).
 	mx := math.Inf(-1)
 	for _, x := range logq {
-		mx = math.Max(mx, x)
+		if x > mx { // NaN never: ll is −Inf where it was NaN
+			mx = x
+		}
 	}
 	s.q = logq // reused in place
 	s.mom = nil
