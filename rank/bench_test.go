@@ -64,7 +64,7 @@ func BenchmarkExplain48(b *testing.B) {
 }
 
 // BenchmarkEvidenceOneCandidate: the evidence of one single candidate
-// (13 magnitude nodes × 48 draws of forward runs, splines, likelihood).
+// (11 magnitude nodes × 48 draws of forward runs, splines, likelihood).
 func BenchmarkEvidenceOneCandidate(b *testing.B) {
 	kb, set, st := benchSetup(b)
 	e, err := newEngine(st, unit{idx: []int{0}}, kb, set, Options{Seed: 1, Draws: DefaultDraws, ModelError: DefaultModelError})
