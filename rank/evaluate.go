@@ -51,21 +51,6 @@ func (s *scored) fineCount() int {
 	return n
 }
 
-// mapFine is the fine point with the most posterior mass (over draws).
-func (s *scored) mapFine() int {
-	best, at := -1.0, 0
-	for f := range s.fineCount() {
-		var m float64
-		for _, q := range s.q[f*s.nd : (f+1)*s.nd] {
-			m += q
-		}
-		if m > best {
-			best, at = m, f
-		}
-	}
-	return at
-}
-
 // fineTheta writes the magnitudes of fine point f into theta.
 func (s *scored) fineTheta(f int, theta []float64) []float64 {
 	theta = theta[:len(s.knobs)]

@@ -942,8 +942,6 @@ const (
 	// best explain what they leave unexplained.
 	residualFrom     = 3
 	residualPartners = 3
-	// probePartners: partners per leading single from the forward probe.
-	probePartners = 2
 )
 
 // pairJobs chooses the pairs to score (DESIGN §5): the best singles with
@@ -1033,58 +1031,6 @@ func (e *engine) pairJobs(entries []entry, none *scored) [][2]entry {
 		}
 		sort.SliceStable(gains, func(i, j int) bool { return gains[i].g > gains[j].g })
 		for _, g := range gains[:min(residualPartners, len(gains))] {
-			add(a, g.b)
-		}
-	}
-	// Probe partners: the linear screen above misses partners whose effect
-	// depends on the leader's (more nitrate leaching matters only where
-	// more nitrate is made). Each leading single, at its most probable
-	// magnitude on the nominal draw, is run with every other single at a
-	// few magnitudes; the partners that lower χ² most, by at least 4, are
-	// paired with it. A few hundred forward runs against 784 per pair.
-	w := newWorker(e.site)
-	out := make([]float64, len(e.obs))
-	chi2 := func(knobs []*knob, theta []float64) float64 {
-		e.predict(w, 0, knobs, theta, out)
-		var c float64
-		for o, v := range out {
-			r := e.shift[o] - v
-			c += r * r / e.variance[o]
-		}
-		if math.IsNaN(c) {
-			return math.Inf(1)
-		}
-		return c
-	}
-	plain := func(en entry) bool { return len(en.s.knobs) == 1 && en.s.knobs[0].kind != kindDuration }
-	for _, a := range pool[:min(residualFrom, len(pool))] {
-		if !plain(a) {
-			continue
-		}
-		ka := a.s.knobs[0]
-		ta := ka.ax.fine[a.s.mapFine()]
-		base := chi2([]*knob{ka}, []float64{ta})
-		type gain struct {
-			b entry
-			g float64
-		}
-		var gains []gain
-		for _, b := range pool {
-			if !plain(b) || b.cands[0].ID == a.cands[0].ID || (b.cands[0].Response != "" && b.cands[0].Response == a.cands[0].Response) {
-				continue
-			}
-			kb := b.s.knobs[0]
-			best := math.Inf(1)
-			n := len(kb.ax.nodes)
-			for _, i := range []int{n / 4, n / 2, 3 * n / 4, n - 1} {
-				best = math.Min(best, chi2([]*knob{ka, kb}, []float64{ta, kb.ax.nodes[i]}))
-			}
-			if g := base - best; g >= 4 {
-				gains = append(gains, gain{b, g})
-			}
-		}
-		sort.SliceStable(gains, func(i, j int) bool { return gains[i].g > gains[j].g })
-		for _, g := range gains[:min(probePartners, len(gains))] {
 			add(a, g.b)
 		}
 	}
