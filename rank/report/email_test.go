@@ -177,13 +177,33 @@ func TestWrap(t *testing.T) {
 // spanning both (DESIGN §5), and without nested parentheses.
 func TestTwoModesWording(t *testing.T) {
 	t.Parallel()
-	m := share("more-denitrification", "more", "denitrification", "the NO3− outflow", 0.56, 0.38, 0.89, 0.06, 23)
+	m := share("more-denitrification", "more", "denitrification", "the NO3− outflow", 0.56, 0.38, 0.89, 0.06, 13)
 	m.Modes = []rank.Mode{{Best: 0.52, Low: 0.36, High: 0.66, Mass: 0.6}, {Best: 0.86, Low: 0.78, High: 0.90, Mass: 0.4}}
 	mw := magnitudeWords{m}
-	if got, want := mw.short(), "52% (36–66%) or 86% (78–90%), was 6.0%; flux 23-fold"; got != want {
+	if got, want := mw.short(), "52% (36–66%) or 86% (78–90%), was 6.0%; flux 13-fold"; got != want {
 		t.Errorf("short = %q, want %q", got, want)
 	}
 	if got := mw.prose(); !strings.HasPrefix(got, "either about 52 % (36–66 %) or about 86 % (78–90 %) of the NO3− outflow instead of 6.0 %") {
 		t.Errorf("prose = %q", got)
+	}
+}
+
+// A flux that was nearly absent before is said in kg N/ha/yr beside its
+// baseline, not as a ratio in the hundreds (issue 9: sizes that mean
+// something in the field); below the threshold it stays a ratio.
+func TestLargeFluxRatioSaidAbsolutely(t *testing.T) {
+	t.Parallel()
+	m := share("more-volatilization", "more", "NH3 volatilization", "the NH4+ outflow", 0.17, 0.003, 0.5, 0.0003, 1759)
+	m.Flux.Baseline, m.Flux.Median = 0.01, 17.59
+	mw := magnitudeWords{m}
+	if got := mw.short(); !strings.Contains(got, "flux 18\u00a0kg\u00a0N/ha/yr, was 0.01") || strings.Contains(got, "fold") {
+		t.Errorf("short = %q", got)
+	}
+	if got := mw.prose(); !strings.Contains(got, "that flux about 18 kg N/ha/yr against 0.01 at baseline") {
+		t.Errorf("prose = %q", got)
+	}
+	m = share("more-nitrification", "more", "nitrification", "the NH4+ outflow", 0.6, 0.4, 0.8, 0.2, 2.4)
+	if got := (magnitudeWords{m}).short(); !strings.HasSuffix(got, "flux 2.4-fold") {
+		t.Errorf("short = %q", got)
 	}
 }

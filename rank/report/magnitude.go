@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"math"
 	"strings"
 
 	"nlens/rank"
@@ -76,6 +77,9 @@ func (m magnitudeWords) fluxWords() string {
 	if f == nil || !f.HasRatio || m.Kind == "input" {
 		return ""
 	}
+	if absoluteFlux(f) {
+		return "that flux about " + sig2(f.Median) + " kg N/ha/yr against " + sig2(f.Baseline) + " at baseline"
+	}
 	s := "that flux " + changeAgainst(f.Ratio, "at baseline")
 	// A smaller share of a larger throughput (or the reverse) moves the
 	// flux against the direction of the share; say why, so it does not
@@ -87,6 +91,15 @@ func (m magnitudeWords) fluxWords() string {
 		s += ", as less N now passes through the pool"
 	}
 	return s
+}
+
+// absoluteFluxRatio: from this ratio on, a flux is said in kg N/ha/yr
+// beside its baseline rather than as a ratio: a process nearly absent
+// before ("flux 1759-fold") is better read as "17 kg N/ha/yr, was 0.01".
+const absoluteFluxRatio = 20
+
+func absoluteFlux(f *rank.FluxImplied) bool {
+	return f.Ratio >= absoluteFluxRatio && f.Median > 0 && !math.IsInf(f.Median, 0)
 }
 
 // short is the compact form for tables: "62% (45–80%), was 21%;
@@ -104,7 +117,11 @@ func (m magnitudeWords) short() string {
 		b.WriteString(", was " + m.value(m.Baseline))
 	}
 	if f := m.Flux; f != nil && f.HasRatio && m.Kind != "input" {
-		b.WriteString("; flux " + changeShort(f.Ratio))
+		if absoluteFlux(f) {
+			b.WriteString("; flux " + sig2(f.Median) + " kg N/ha/yr, was " + sig2(f.Baseline))
+		} else {
+			b.WriteString("; flux " + changeShort(f.Ratio))
+		}
 	}
 	// Numbers keep their signs and units in one word, so a wrapped table
 	// cell never breaks "73 %" or "≤ 53 %" across lines.
