@@ -327,35 +327,60 @@ func (d *drafter) academic(h rank.Hypothesis) string {
 // soil-nitrate δ15N (+7.5, +4.5 and +1.0 ‰) two, five and ten years after
 // the clear-cut harvest".
 func seriesPattern(u summaryUnit) patternText {
+	yw := func(y float64) string {
+		return strings.TrimSuffix(strings.TrimSuffix(yearsWords(y), " years"), " year")
+	}
 	var whens []string
 	for _, c := range u.comparisons {
 		if c.Years != nil {
-			whens = append(whens, strings.TrimSuffix(strings.TrimSuffix(yearsWords(*c.Years), " years"), " year"))
+			whens = append(whens, yw(*c.Years))
 		}
 	}
-	var parts []string
-	for _, o := range u.comparisons[0].Observed {
-		var vs []string
-		for _, c := range u.comparisons {
-			for _, oc := range c.Observed {
-				if oc.Observable == o.Observable {
-					if oc.LogRatio {
-						vs = append(vs, "ln ratio "+plusSigned(oc.Shift, 2))
-					} else {
-						vs = append(vs, plusSigned(oc.Shift, 1))
-					}
-				}
+	// Observables in order of first appearance, each with its shifts and
+	// the years it was measured (not every comparison of a series need
+	// measure every observable).
+	var names []string
+	vals, at := map[string][]string{}, map[string][]string{}
+	logr := map[string]bool{}
+	for _, c := range u.comparisons {
+		for _, oc := range c.Observed {
+			if _, ok := vals[oc.Observable]; !ok {
+				names = append(names, oc.Observable)
+			}
+			if oc.LogRatio {
+				vals[oc.Observable] = append(vals[oc.Observable], "ln ratio "+plusSigned(oc.Shift, 2))
+			} else {
+				vals[oc.Observable] = append(vals[oc.Observable], plusSigned(oc.Shift, 1))
+			}
+			logr[oc.Observable] = oc.LogRatio
+			if c.Years != nil {
+				at[oc.Observable] = append(at[oc.Observable], yw(*c.Years))
 			}
 		}
+	}
+	everywhere := len(whens) == len(u.comparisons)
+	for _, n := range names {
+		everywhere = everywhere && len(vals[n]) == len(u.comparisons)
+	}
+	var parts []string
+	for _, n := range names {
 		unit := " ‰"
-		if o.LogRatio {
+		if logr[n] {
 			unit = ""
 		}
-		parts = append(parts, obsName(o.Observable)+" ("+joinAnd(vs)+unit+")")
+		part := obsName(n) + " (" + joinAnd(vals[n]) + unit
+		if !everywhere && len(at[n]) == len(vals[n]) {
+			part += " at " + joinAnd(at[n]) + " " + map[bool]string{true: "year", false: "years"}[len(at[n]) == 1 && at[n][0] == "one"]
+		}
+		parts = append(parts, part+")")
 	}
 	when := ""
 	if tw := treatmentWords(u.comparisons[0].Treatment); tw != "" && len(whens) == len(u.comparisons) {
-		when = " " + joinAnd(whens) + " years after the " + tw
+		if everywhere {
+			when = " " + joinAnd(whens) + " years after the " + tw
+		} else {
+			when = " after the " + tw
+		}
 	}
 	return patternText{text: "the shifts of " + joinAnd(parts) + when, plural: true}
 }

@@ -4,6 +4,9 @@ import (
 	"bytes"
 	"strings"
 	"testing"
+
+	"nlens/rank"
+	"nlens/rank/study"
 )
 
 // TestSeriesRankedOnce: the comparisons of a series report their own
@@ -47,6 +50,31 @@ func TestSeriesRankedOnce(t *testing.T) {
 			if !strings.Contains(out, c+"/") {
 				t.Errorf("%s: joint predictions lack %s's observables", name, c)
 			}
+		}
+	}
+}
+
+// A series whose comparisons measured different observables says at which
+// years each shift was seen (foliage at 2, 4 and 10 years, the forest
+// floor at 3, as in the clear-cut of Pardo et al. 2002), not one list of
+// years for all.
+func TestSeriesPatternYearsPerObservable(t *testing.T) {
+	t.Parallel()
+	y := func(v float64) *float64 { return &v }
+	tr := rank.Treatment{Management: []rank.AppliedManagement{{Tag: "clear-cut", Label: "clear-cut harvest"}}}
+	obs := func(name string, shift float64) []study.Observed {
+		return []study.Observed{{Observable: name, Shift: shift, SE: 0.5}}
+	}
+	u := summaryUnit{series: "harvest", comparisons: []rank.ComparisonResult{
+		{Name: "cut 2 y", Years: y(2), Treatment: tr, Observed: obs("foliage", 2.9)},
+		{Name: "cut 3 y", Years: y(3), Treatment: tr, Observed: obs("forest-floor", 1.3)},
+		{Name: "cut 4 y", Years: y(4), Treatment: tr, Observed: obs("foliage", 1.2)},
+		{Name: "cut 10 y", Years: y(10), Treatment: tr, Observed: obs("foliage", -0.1)},
+	}}
+	got := seriesPattern(u).text
+	for _, want := range []string{"(+2.9, +1.2 and -0.1 ‰ at two, four and ten years)", "(+1.3 ‰ at three years)", "after the clear-cut harvest"} {
+		if !strings.Contains(got, want) {
+			t.Errorf("pattern %q lacks %q", got, want)
 		}
 	}
 }
