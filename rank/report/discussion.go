@@ -193,7 +193,11 @@ func (d *drafter) resolution(c rank.ComparisonResult, hs []rank.Hypothesis) stri
 		ids = append(ids, h.ID)
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "Measuring %s would probably be the most effective way to discriminate among these explanations (expected information gain %s)", m.Label, bits(m.Bits))
+	at := ""
+	if c.MeasurementsAt != "" {
+		at = " in the samples of " + quoteName(c.MeasurementsAt)
+	}
+	fmt.Fprintf(&b, "Measuring %s%s would probably be the most effective way to discriminate among these explanations (expected information gain %s)", m.Label, at, bits(m.Bits))
 	if a, bb, z := separation(m, ids); a != "" && z > 0 {
 		ha, _ := hypothesisByID(c, a)
 		hb, _ := hypothesisByID(c, bb)

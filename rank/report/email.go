@@ -179,7 +179,7 @@ func summaryUnits(r *rank.Result) []summaryUnit {
 		}
 		for _, sr := range r.Series {
 			if sr.Name == c.Series {
-				u.ranked = rank.ComparisonResult{Name: sr.Name, Treatment: c.Treatment, Years: c.Years, Hypotheses: sr.Hypotheses, Measurements: sr.Measurements, Leading: sr.Leading, NoFit: sr.NoFit, Series: sr.Name}
+				u.ranked = rank.ComparisonResult{Name: sr.Name, Treatment: c.Treatment, Years: c.Years, Hypotheses: sr.Hypotheses, Measurements: sr.Measurements, MeasurementsAt: sr.MeasurementsAt, Leading: sr.Leading, NoFit: sr.NoFit, Series: sr.Name}
 				// The joint predictions are keyed "comparison/observable".
 				for _, cc := range u.comparisons {
 					for _, o := range cc.Observed {
@@ -326,6 +326,10 @@ func nextSentence(c rank.ComparisonResult, n namer, predictions, report bool) st
 		verb = "the most useful next measurement is %s (%s cost)"
 	}
 	s := lead + ", " + fmt.Sprintf(verb, m.Label, costName(m.Cost))
+	if c.MeasurementsAt != "" {
+		// a series: scored at the comparison where it tells most
+		s += " in the samples of " + quoteName(c.MeasurementsAt)
+	}
 	if a, b, z := separation(m, namedIDs(c)); predictions && a != "" && z > 0 {
 		ha, _ := hypothesisByID(c, a)
 		hb, _ := hypothesisByID(c, b)

@@ -78,3 +78,22 @@ func TestSeriesPatternYearsPerObservable(t *testing.T) {
 		}
 	}
 }
+
+// The e-mail and the discussion of a series say in which comparison's
+// samples the recommended measurement was scored.
+func TestSeriesMeasurementSaysWhere(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs the ranking engine")
+	}
+	r := studyResult(t, "series")
+	sr := r.Series[0]
+	if sr.MeasurementsAt == "" || len(sr.Measurements) == 0 {
+		t.Fatal("series without measurements or the comparison they were scored at")
+	}
+	want := "in the samples of " + quoteName(sr.MeasurementsAt)
+	for _, format := range []string{"text", "markdown"} {
+		if out := render(t, r, format); !strings.Contains(strings.Join(strings.Fields(out), " "), want) {
+			t.Errorf("%s does not say %q", format, want)
+		}
+	}
+}
