@@ -200,7 +200,12 @@ func trajectoriesFigure(r *rank.Result, ci int) (*figure, error) {
 
 	for i, o := range c.Observed {
 		p := plot.New()
-		p.Title.Text = titleText(p, obsShort(o.Observable)+": "+plain(c.Name))
+		title := plain(c.Name)
+		if len(obsYears) > 1 && c.Series != "" {
+			// every year of the series is drawn, not only this comparison's
+			title = "series " + quoteName(c.Series)
+		}
+		p.Title.Text = titleText(p, obsShort(o.Observable)+": "+title)
 		p.Title.TextStyle.Font.Size = vg.Points(11)
 		p.Y.Label.Text = "shift (‰)"
 		if o.LogRatio {
