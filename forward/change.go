@@ -96,6 +96,27 @@ type Knob struct {
 	// Input is where a fixation knob adds N on a site that has no fixation
 	// input of its own (its rate is replaced by Value).
 	Input *InputParam
+	// Transfers caches the transfers a share or factor knob acts on
+	// (Processes leaving From) for one site; PrepareKnob fills it, and a
+	// knob without it looks them up on every application.
+	Transfers []int
+}
+
+// PrepareKnob fills k.Transfers for site s, so that applying the knob many
+// times (one per draw and magnitude) does not search the transfers by name
+// each time. The knob must then be applied to s only.
+func PrepareKnob(s *Site, k *Knob) {
+	if k.Kind == KnobShare || k.Kind == KnobFactor {
+		k.Transfers = transfers(s, k.Processes, k.From)
+	}
+}
+
+// knobTransfers is k.Transfers, or the lookup when it was not prepared.
+func knobTransfers(s *Site, k Knob) []int {
+	if k.Transfers != nil {
+		return k.Transfers
+	}
+	return transfers(s, k.Processes, k.From)
 }
 
 // Processes of the plant-supply and fungal knobs.
@@ -351,7 +372,7 @@ func applyKnob(s *Site, base, p *Params, k Knob) error {
 		if k.Value >= 1 {
 			return errKnob(s, k, "a share must be below 1, got %g", k.Value)
 		}
-		js := transfers(s, k.Processes, k.From)
+		js := knobTransfers(s, k)
 		if len(js) == 0 {
 			return errKnob(s, k, "the site has no such transfer")
 		}
@@ -427,7 +448,7 @@ func applyKnob(s *Site, base, p *Params, k Knob) error {
 			p.K[j] *= md
 		}
 	case KnobFactor:
-		js := transfers(s, k.Processes, k.From)
+		js := knobTransfers(s, k)
 		if len(js) == 0 {
 			return errKnob(s, k, "the site has no such transfer")
 		}

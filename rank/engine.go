@@ -236,6 +236,7 @@ func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 		if k.kind == rules.KnobShare && len(forward.KnobTransfers(s, fk)) == 0 {
 			return nil, "the site has no transfer for it"
 		}
+		forward.PrepareKnob(s, &fk)
 		k.fk = &fk
 		k.fluxJ = forward.KnobTransfers(s, fk)
 		k.baseline = forward.KnobValue(s, &e.draws[0].params, fk)
