@@ -135,7 +135,9 @@ func TestMoveFollowsRayleigh(t *testing.T) {
 		if got := x.Delta15(fol); math.Abs(got-want) > 1e-9 {
 			t.Errorf("share %g ε %g: residual δ %g, Rayleigh %g", tt.share, tt.eps, got, want)
 		}
-		// 14N and 15N are conserved between the two pools.
+		// 14N and 15N are conserved between the two pools (absolute
+		// tolerances in kg N/ha; 15N is about 1/272 of 14N, so its bound is
+		// two orders tighter, round-off only).
 		if d := x.N14[fol] + x.N14[org] - x0.N14[fol] - x0.N14[org]; math.Abs(d) > 1e-9 {
 			t.Errorf("14N not conserved: %g", d)
 		}
