@@ -108,6 +108,9 @@ func TestDiscussionDraft(t *testing.T) {
 		r    *rank.Result
 		want []string
 	}{
+		// The numbers are the fixture's (fixture_test.go, invented): posterior
+		// 0.58 and the share 0.62 (0.45–0.80) against a baseline of 0.21,
+		// worded as percentages.
 		{"transient", transientResult(), []string{
 			"this explanation carries a posterior probability of 0.58", "more nitrification, about 62 % of the NH4+ outflow instead of 21 % (90 % interval 45–80 %)",
 			"Alternative interpretations cannot be excluded", "Measuring δ15N of soil NH4+ would probably",
