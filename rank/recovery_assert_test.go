@@ -112,6 +112,8 @@ func identifiable(t *testing.T, tr truth, seed uint64) float64 {
 	return math.Sqrt(d)
 }
 
+// identifiableSE, 6 SE: the project's threshold for "the data can tell"
+// (engineering choice; no source recorded).
 const identifiableSE = 6
 
 // checkDeclaredAndContext fails if a declared addition or a source outside
@@ -263,6 +265,7 @@ func TestNoneWinsOnNoise(t *testing.T) {
 				for _, o := range st.Comparisons[0].Observed {
 					chi2 += o.Shift * o.Shift / (o.SE * o.SE)
 				}
+				// 5 degrees of freedom: the five observables of obsRich.
 				if chi2 > 11.07 { // χ²(5) 95th percentile, 11.070 in standard statistical tables
 					continue
 				}
