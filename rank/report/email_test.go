@@ -19,6 +19,8 @@ func renderText(t *testing.T, r *rank.Result) string {
 	return b.String()
 }
 
+// TestTextGolden is a regression pin: the e-mail text of the fixtures as
+// last reviewed (see golden in fixture_test.go).
 func TestTextGolden(t *testing.T) {
 	for _, tc := range []struct {
 		name string

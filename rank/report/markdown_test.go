@@ -18,6 +18,8 @@ func renderMarkdown(t *testing.T, r *rank.Result, opt MarkdownOptions) string {
 	return b.String()
 }
 
+// TestMarkdownGolden is a regression pin: the Markdown of the fixtures as
+// last reviewed (see golden in fixture_test.go).
 func TestMarkdownGolden(t *testing.T) {
 	for _, tc := range []struct {
 		name string
@@ -33,6 +35,8 @@ func TestMarkdownGolden(t *testing.T) {
 	}
 }
 
+// TestJSONGolden is a regression pin: the JSON of the transient fixture as
+// last reviewed.
 func TestJSONGolden(t *testing.T) {
 	var b bytes.Buffer
 	if err := JSON(&b, transientResult()); err != nil {
