@@ -131,11 +131,15 @@ func TestMoveFollowsRayleigh(t *testing.T) {
 			t.Errorf("share %g: foliage %g kg N/ha, want %g", tt.share, got, want)
 		}
 		f14 := x.N14[fol] / x0.N14[fol]
+		// RayleighResidual is held to the FACTS.md §5.1 worked values in
+		// formula_test.go, so it serves as the closed form here.
 		want := RayleighResidual(x0.Delta15(fol), tt.eps, f14)
 		if got := x.Delta15(fol); math.Abs(got-want) > 1e-9 {
 			t.Errorf("share %g ε %g: residual δ %g, Rayleigh %g", tt.share, tt.eps, got, want)
 		}
-		// 14N and 15N are conserved between the two pools.
+		// 14N and 15N are conserved between the two pools (absolute
+		// tolerances in kg N/ha; 15N is about 1/272 of 14N, so its bound is
+		// two orders tighter, round-off only).
 		if d := x.N14[fol] + x.N14[org] - x0.N14[fol] - x0.N14[org]; math.Abs(d) > 1e-9 {
 			t.Errorf("14N not conserved: %g", d)
 		}

@@ -79,6 +79,8 @@ func TestObservablesOfDesignTable(t *testing.T) {
 		{"net:mineralization", 45, 1e-9},
 		// Nitrification 12 − immobilization of nitrate 5.
 		{"net:nitrification", 7, 1e-9},
+		// The foliage pool as set in obsSite, 50 kg N/ha (hand computation:
+		// the pool itself).
 		{"foliage-n", 50, 1e-9},
 		// The emitted flux, 0.4 kg N/ha/yr.
 		{"flux:n2o", 0.4, 1e-9},

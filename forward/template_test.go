@@ -260,6 +260,9 @@ func TestTemplateSpecialRoutes(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// 10 kg N/ha/yr: a floor for "fed by groundwater nitrate" below the
+	// template's own 25 kg N/ha/yr (its note, from memory); the floor itself
+	// has no recorded source (engineering choice).
 	nitrate := riparian.PoolIndex("nitrate")
 	found := false
 	for _, in := range riparian.Inputs {

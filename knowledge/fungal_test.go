@@ -101,6 +101,9 @@ func TestDerivedEffects(t *testing.T) {
 
 // A golden summary of the fungal physiology and the measurements limited
 // to some mycorrhizal types (refresh with go test ./knowledge -update).
+// Regression pin: the golden file is the program's own output as last
+// reviewed; the ε ranges themselves are checked against their sources in
+// the tests above and in forward/mycorrhiza_test.go.
 func TestGoldenFungalSummary(t *testing.T) {
 	t.Parallel()
 	b := MustDefault()

@@ -112,6 +112,8 @@ func identifiable(t *testing.T, tr truth, seed uint64) float64 {
 	return math.Sqrt(d)
 }
 
+// identifiableSE, 6 SE: the project's threshold for "the data can tell"
+// (engineering choice; no source recorded).
 const identifiableSE = 6
 
 // checkDeclaredAndContext fails if a declared addition or a source outside
@@ -176,6 +178,8 @@ func TestRecoversTruthNoiseFree(t *testing.T) {
 				}
 			case r < 0:
 				t.Errorf("%s not ranked", want)
+			// 0.9 ("confident") and 0.01 ("ruled out") are the project's
+			// thresholds (engineering choices; no source recorded).
 			case r > 0 && top.Posterior > 0.9:
 				// Too close to the treatment alone to be identified: the
 				// answer must stay open, not name another with confidence.
@@ -233,6 +237,8 @@ func TestRecoversTruthWithNoise(t *testing.T) {
 					t.Logf("seed %d (%.1f SE): top %s %.2f, truth at %d", seed, dist, top.ID, top.Posterior, r+1)
 				}
 			}
+			// Three in four: the project's acceptance rate (engineering
+			// choice; no source recorded).
 			if tried > 0 && hits < (3*tried+3)/4 {
 				t.Errorf("%s ranked first in %d of %d identifiable noise draws, want at least three in four", want, hits, tried)
 			}
@@ -259,6 +265,7 @@ func TestNoneWinsOnNoise(t *testing.T) {
 				for _, o := range st.Comparisons[0].Observed {
 					chi2 += o.Shift * o.Shift / (o.SE * o.SE)
 				}
+				// 5 degrees of freedom: the five observables of obsRich.
 				if chi2 > 11.07 { // χ²(5) 95th percentile, 11.070 in standard statistical tables
 					continue
 				}

@@ -286,11 +286,14 @@ func TestFlagSweep(t *testing.T) {
 		{explain("--draws", "0"), "--draws must be between 1 and 100000, got 0"},
 		{explain("--draws", "100001"), "--draws must be between 1 and 100000, got 100001"},
 		{explain("--draws", "NaN"), `invalid argument "NaN" for "--draws" flag: strconv.ParseInt: parsing "NaN": invalid syntax (see nlens explain --help)`},
-		// badStudy's largest comparison has 2 observables: 20 share responses
-		// on 15 nodes, 20·(121·3 + 15·2) = 7860, and 2 fixation responses and
-		// 8 undeclared sources on 11 nodes, 10·(121·3 + 11·2) = 3850; 11 710
-		// floats × 8 × 3 = 281 040 bytes per draw (274.5 KiB); 2 GiB /
-		// 281 040 = 7641 draws (hand computation).
+		// badStudy's largest comparison has 2 observables: the 30 candidates
+		// with a magnitude, all on 11 coarse nodes (as in
+		// rank/memory_test.go), give 30·(121·3 + 11·2) = 11 550 floats × 8
+		// × 3 = 277 200 bytes per draw (270.7 KiB); 2 GiB / 277 200 = 7747
+		// draws; 100 000 draws need 2.772e10 bytes = 25.8 GiB (hand
+		// computation, redone in the audit: the earlier comment's 15 nodes
+		// for shares, 281 040 bytes and 7641 draws no longer matched the
+		// message checked).
 		{explain("--draws", "100000"), "--draws 100000 would need about 25.8 GiB of memory for this study (270.7 KiB per draw); at most 7747 draws fit in the 2 GiB nlens allows"},
 		{simulate("--years", "NaN"), years + "NaN"},
 		{simulate("--years", "+Inf"), years + "+Inf"},

@@ -203,6 +203,8 @@ func TestSiteFit(t *testing.T) {
 	if n := strings.Count(out, "\nsite: "); n != 1 {
 		t.Errorf("got %d fitted sites, want 1 (one control group shared by two comparisons)", n)
 	}
+	// The control's foliage, −1.2 ‰ with sd 0.6 and n 6: SE 0.6/√6 = 0.245,
+	// printed 0.24 (hand computation).
 	for _, want := range []string{"# Moved (from → to):", "# Control (observed ± SE; template; fitted):", "#   foliage: -1.20 ± 0.24;", "site: temperate-conifer-forest-fitted"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("fitted site file lacks %q:\n%s", want, out)

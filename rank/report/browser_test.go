@@ -91,6 +91,9 @@ func TestHTMLInChromium(t *testing.T) {
 		info, _ := os.Stat(shot)
 		t.Logf("%s screenshot: %d×%d px, %d bytes, %d colours, %.1f %% not background, %d pixels of the figures' amber",
 			s.name, img.Bounds().Dx(), img.Bounds().Dy(), info.Size(), st.colours, 100*st.inked, st.marked)
+		// 5 % inked, 64 colours, 200 amber pixels and a 50 000-byte PDF
+		// are floors for "something was drawn" (engineering choices, not
+		// measured values).
 		if st.inked < 0.05 || st.colours < 64 {
 			t.Errorf("%s screenshot is (nearly) blank: %.1f %% of pixels differ from the background, %d colours", s.name, 100*st.inked, st.colours)
 		}

@@ -19,6 +19,8 @@ func renderText(t *testing.T, r *rank.Result) string {
 	return b.String()
 }
 
+// TestTextGolden is a regression pin: the e-mail text of the fixtures as
+// last reviewed (see golden in fixture_test.go).
 func TestTextGolden(t *testing.T) {
 	for _, tc := range []struct {
 		name string
@@ -53,6 +55,8 @@ func TestTextReadsLikeAnEmail(t *testing.T) {
 			t.Errorf("line %d looks like a table: %q", i+1, line)
 		}
 	}
+	// Hand computation from the fixture: soil nitrate SE √(2.2²/5 + 2.6²/5)
+	// = 1.52; bulk soil +0.1 ‰ with SE √(0.6²/6 + 0.7²/6) = 0.38, z = 0.27.
 	flat := strings.Join(strings.Fields(got), " ")
 	for _, want := range []string{
 		"soil-nitrate δ15N was 6.1 ‰ higher (standard error 1.5 ‰)", // the fixture's shift, −6.0 − (−12.1); SE glossed on first use

@@ -65,6 +65,9 @@ func TestSeriesPatternYearsPerObservable(t *testing.T) {
 	obs := func(name string, shift float64) []study.Observed {
 		return []study.Observed{{Observable: name, Shift: shift, SE: 0.5}}
 	}
+	// +2.9 (foliage, 2 years) and +1.3 (forest floor, 3 years) are Pardo et
+	// al. 2002's foliar and Oie shifts (confirmed, FACTS-2 §10 case 1);
+	// +1.2 and −0.1 are invented. The expected text echoes these inputs.
 	u := summaryUnit{series: "harvest", comparisons: []rank.ComparisonResult{
 		{Name: "cut 2 y", Years: y(2), Treatment: tr, Observed: obs("foliage", 2.9)},
 		{Name: "cut 3 y", Years: y(3), Treatment: tr, Observed: obs("forest-floor", 1.3)},
