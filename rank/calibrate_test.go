@@ -71,9 +71,10 @@ func TestCalibrationSmall(t *testing.T) {
 		t.Fatal(err)
 	}
 	logCalibration(t, c)
-	// 0.85–0.95: the nominal 90 % ± 0.05, and 0.05 on the ECE and 0.75 for
-	// the top-1 rate below are the project's acceptance thresholds
-	// (engineering choices; no source recorded).
+	// 0.85–0.95 coverage and at most 0.05 of ECE beyond sampling noise are
+	// issue 11's acceptance bounds (its tests and "Done when"); 0.75 for the
+	// top-1 rate of identifiable truths on this small set is the project's
+	// floor (engineering choice, below the 0.91 of the 200-case run).
 	if c.Coverage < 0.85 || c.Coverage > 0.95 {
 		t.Errorf("90 %% interval coverage %.2f, want 0.85–0.95", c.Coverage)
 	}

@@ -112,8 +112,9 @@ func identifiable(t *testing.T, tr truth, seed uint64) float64 {
 	return math.Sqrt(d)
 }
 
-// identifiableSE, 6 SE: the project's threshold for "the data can tell"
-// (engineering choice; no source recorded).
+// identifiableSE, 6 SE: the project's definition of "the data can tell",
+// the same as the calibration harness's identifiable truths (calibrate.go;
+// engineering choice).
 const identifiableSE = 6
 
 // checkDeclaredAndContext fails if a declared addition or a source outside
