@@ -427,13 +427,16 @@ func WriteBundle(dir string, r *rank.Result, kb *knowledge.Base, opt BundleOptio
 // renderBundle renders every file of the bundle into memory.
 func renderBundle(r *rank.Result, kb *knowledge.Base) (map[string][]byte, error) {
 	files := map[string][]byte{}
+	// The Markdown report and the figures' SVG are rendered once, for
+	// their own files and for the HTML page made from them.
 	md, refs := markdownReport(r, kb, MarkdownOptions{Figures: true})
-	files[BundleReport] = []byte(EscapeText(md))
-	page, err := htmlReport(r, kb, HTMLOptions{FigureFiles: true})
+	md = EscapeText(md)
+	files[BundleReport] = []byte(md)
+	svgs, err := svgFigures(r)
 	if err != nil {
 		return nil, fmt.Errorf("render %s: %w", BundleHTML, err)
 	}
-	files[BundleHTML] = page
+	files[BundleHTML] = htmlPage(r, md, refs, svgs, HTMLOptions{FigureFiles: true})
 	var buf bytes.Buffer
 	if err := JSON(&buf, r); err != nil {
 		return nil, fmt.Errorf("render %s: %w", BundleResult, err)
@@ -445,13 +448,12 @@ func renderBundle(r *rank.Result, kb *knowledge.Base) (map[string][]byte, error)
 	}
 	files[BundleReferences] = bytes.Clone(buf.Bytes())
 	for _, f := range figurePlan(r) {
-		for _, format := range []string{FigureSVG, FigurePNG} {
-			buf.Reset()
-			if err := Figure(&buf, r, f.Comparison, f.Kind, format); err != nil {
-				return nil, err
-			}
-			files[f.Base+"."+format] = bytes.Clone(buf.Bytes())
+		files[f.Base+"."+FigureSVG] = []byte(svgs[f.Base+"."+FigureSVG])
+		buf.Reset()
+		if err := Figure(&buf, r, f.Comparison, f.Kind, FigurePNG); err != nil {
+			return nil, err
 		}
+		files[f.Base+"."+FigurePNG] = bytes.Clone(buf.Bytes())
 	}
 	return files, nil
 }

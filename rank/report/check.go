@@ -114,9 +114,9 @@ func appliedTreatment(st *study.Study, c *study.Comparison, kb *knowledge.Base) 
 			out = append(out, line)
 		}
 		for _, r := range rates {
-			line := fmt.Sprintf("  - %s: rate constants of %s multiplied by %s (%s–%s)", r.Label, strings.Join(r.Processes, ", "), g3(r.Factor.Typical), g3(r.Factor.Range[0]), g3(r.Factor.Range[1]))
+			line := fmt.Sprintf("  - %s: rate constants of %s multiplied by %s (%s–%s)", r.Label, strings.Join(r.Processes, ", "), sigG(r.Factor.Typical, 3), sigG(r.Factor.Range[0], 3), sigG(r.Factor.Range[1], 3))
 			if r.Years != nil {
-				line += fmt.Sprintf(" for %s years (%s–%s)", g3(r.Years.Typical), g3(r.Years.Range[0]), g3(r.Years.Range[1]))
+				line += fmt.Sprintf(" for %s years (%s–%s)", sigG(r.Years.Typical, 3), sigG(r.Years.Range[0], 3), sigG(r.Years.Range[1], 3))
 			}
 			out = append(out, line)
 		}

@@ -177,17 +177,11 @@ func summaryUnits(r *rank.Result) []summaryUnit {
 				u.comparisons = append(u.comparisons, cc)
 			}
 		}
-		for _, sr := range r.Series {
-			if sr.Name == c.Series {
-				u.ranked = rank.ComparisonResult{Name: sr.Name, Treatment: c.Treatment, Years: c.Years, Hypotheses: sr.Hypotheses, Measurements: sr.Measurements, MeasurementsAt: sr.MeasurementsAt, Leading: sr.Leading, NoFit: sr.NoFit, Series: sr.Name}
-				// The joint predictions are keyed "comparison/observable".
-				for _, cc := range u.comparisons {
-					for _, o := range cc.Observed {
-						o.Observable = cc.Name + "/" + o.Observable
-						u.ranked.Observed = append(u.ranked.Observed, o)
-					}
-				}
-			}
+		if sr, _ := seriesOf(r, c); sr != nil {
+			// The series' joint view, told with its first comparison's
+			// treatment and years.
+			u.ranked = seriesAsComparison(r, sr)
+			u.ranked.Treatment, u.ranked.Years = c.Treatment, c.Years
 		}
 		out = append(out, u)
 	}

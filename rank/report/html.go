@@ -43,15 +43,31 @@ func HTML(w io.Writer, r *rank.Result, kb *knowledge.Base, opt HTMLOptions) erro
 // htmlReport renders the HTML page into memory.
 func htmlReport(r *rank.Result, kb *knowledge.Base, opt HTMLOptions) ([]byte, error) {
 	md, refs := markdownReport(r, kb, MarkdownOptions{Figures: true})
-	md = EscapeText(md)
-	conv := &mdConverter{figures: map[string]string{}, figureLinks: opt.FigureFiles, refsHeading: "References"}
+	svgs, err := svgFigures(r)
+	if err != nil {
+		return nil, err
+	}
+	return htmlPage(r, EscapeText(md), refs, svgs, opt), nil
+}
+
+// svgFigures renders every planned figure as SVG, keyed by its file name
+// (f.Base + ".svg").
+func svgFigures(r *rank.Result) (map[string]string, error) {
+	out := map[string]string{}
 	for _, f := range figurePlan(r) {
 		var buf bytes.Buffer
 		if err := Figure(&buf, r, f.Comparison, f.Kind, FigureSVG); err != nil {
 			return nil, err
 		}
-		conv.figures[f.Base+"."+FigureSVG] = buf.String()
+		out[f.Base+"."+FigureSVG] = buf.String()
 	}
+	return out, nil
+}
+
+// htmlPage converts the escaped Markdown report md, with the references it
+// cites and its figures' SVG (from svgFigures), into the HTML page.
+func htmlPage(r *rank.Result, md string, refs []citedRef, svgs map[string]string, opt HTMLOptions) []byte {
+	conv := &mdConverter{figures: svgs, figureLinks: opt.FigureFiles, refsHeading: "References"}
 	for _, cr := range refs {
 		id := refID(cr.Ref.Key)
 		conv.refIDs = append(conv.refIDs, id)
@@ -72,7 +88,7 @@ func htmlReport(r *rank.Result, kb *knowledge.Base, opt HTMLOptions) ([]byte, er
 	b.WriteString("<style>\n" + strings.TrimSpace(htmlStyle) + "\n</style>\n</head>\n<body>\n<main>\n")
 	b.WriteString(body)
 	b.WriteString("</main>\n</body>\n</html>\n")
-	return b.Bytes(), nil
+	return b.Bytes()
 }
 
 // htmlStyle is the report's style sheet: one readable column, system

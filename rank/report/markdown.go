@@ -82,15 +82,16 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 
 	plan := figurePlan(r)
 	for i, c := range r.Comparisons {
+		// Each comparison: its observations, its ranking, figures and
+		// warnings. A member of a series has no ranking of its own: the
+		// joint ranking comes once, after the last member.
+		comparisonHead(&b, c)
 		sr, last := seriesOf(r, c)
 		if sr == nil {
-			comparisonSection(&b, i, c, kb, ci, opt, plan)
-			continue
+			rankingSection(&b, c, kb, ci, opt)
+		} else {
+			fmt.Fprintf(&b, "Part of %s; the ranking is given once for the series below.\n\n", mdEscape(seriesHeading(sr)))
 		}
-		// A member of a series: its observations, figures and own
-		// warnings; the joint ranking once, after the last member.
-		comparisonHead(&b, c)
-		fmt.Fprintf(&b, "Part of %s; the ranking is given once for the series below.\n\n", mdEscape(seriesHeading(sr)))
 		comparisonFigures(&b, i, opt, plan)
 		markdownWarnings(&b, c.Warnings)
 		if last {
@@ -115,14 +116,6 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 	b.WriteString("\n## Methods\n\n")
 	b.WriteString(methods(r, kb, ci))
 	return b.String()
-}
-
-// comparisonSection writes the tables and notes of one comparison.
-func comparisonSection(b *strings.Builder, idx int, c rank.ComparisonResult, kb *knowledge.Base, ci citer, opt MarkdownOptions, plan []figureSpec) {
-	comparisonHead(b, c)
-	rankingSection(b, c, kb, ci, opt)
-	comparisonFigures(b, idx, opt, plan)
-	markdownWarnings(b, c.Warnings)
 }
 
 // comparisonHead writes a comparison's heading and observed shifts.

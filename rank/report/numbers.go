@@ -167,15 +167,13 @@ func bits(b float64) string {
 	return s + " bits"
 }
 
-// g3 writes a forcing size with up to three significant digits and no
-// trailing zeros (0.2, 5, 98).
-func g3(v float64) string { return sigG(v, 3) }
-
+// percentRange writes a range of fractions as percentages with up to
+// three significant digits: [0.2, 0.5] → "20–50 %".
 func percentRange(r []float64) string {
 	if len(r) != 2 {
 		return ""
 	}
-	return g3(100*r[0]) + "–" + g3(100*r[1]) + " %"
+	return sigG(100*r[0], 3) + "–" + sigG(100*r[1], 3) + " %"
 }
 
 // sigG prints a value with at most n significant digits, trailing zeros
@@ -185,3 +183,15 @@ func sigG(v float64, n int) string { return strconv.FormatFloat(v, 'g', n, 64) }
 // fixed prints a value with a fixed number of decimals (bits, shares in
 // site tables).
 func fixed(v float64, decimals int) string { return strconv.FormatFloat(v, 'f', decimals, 64) }
+
+// sig3 formats a value with about three significant digits (at least two
+// decimals for δ-sized numbers).
+func sig3(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "n/a"
+	}
+	if math.Abs(v) < 100 {
+		return fixed(v, 2)
+	}
+	return sigG(v, 4)
+}

@@ -401,18 +401,6 @@ func fitComment(f SiteFitResult) []string {
 	return out
 }
 
-// sig3 formats a value with about three significant digits (at least two
-// decimals for δ-sized numbers).
-func sig3(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "n/a"
-	}
-	if math.Abs(v) < 100 {
-		return fixed(v, 2)
-	}
-	return sigG(v, 4)
-}
-
 func siteFitTable(ew *errWriter, f SiteFitResult) error {
 	ew.printf("%s\n", wrap(fmt.Sprintf("%s: control group %q of %q, fitted as %s", f.Study, f.Control, f.Comparison, f.Fit.Site.ID), 78))
 	if len(f.Fit.Moved) == 0 {
