@@ -167,7 +167,7 @@ func writeOutput(e *env, path string, force bool, data []byte) error {
 	if err := f.Close(); err != nil {
 		return badf("cannot write %s: %v", path, err)
 	}
-	fmt.Fprintf(e.stderr, "nlens: wrote %s\n", path)
+	fmt.Fprintf(e.stderr, "nlens: wrote %s\n", report.EscapeText(path))
 	return nil
 }
 
@@ -274,7 +274,7 @@ func runSiteFit(e *env, opt siteFitOptions) error {
 	if opt.format != report.FormatTable {
 		for _, f := range fits {
 			for _, w := range f.Fit.Warnings {
-				fmt.Fprintf(e.stderr, "warning: control %q: %s\n", f.Control, w)
+				fmt.Fprintf(e.stderr, "warning: control %q: %s\n", f.Control, report.EscapeText(w))
 			}
 		}
 	}
