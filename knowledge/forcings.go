@@ -1,7 +1,6 @@
 package knowledge
 
 import (
-	"fmt"
 	"io/fs"
 	"math"
 	"nlens/knowledge/input"
@@ -91,7 +90,7 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 	}
 	var errs input.Errors
 	at := func(path []any, format string, args ...any) {
-		errs = append(errs, doc.Errorf(fieldPath(path), path, format, args...))
+		errs = append(errs, doc.ErrorAt(path, format, args...))
 	}
 	checkSize := func(path []any, s Size, lo, hi float64) {
 		if len(s.Range) != 2 || !(s.Range[0] <= s.Typical && s.Typical <= s.Range[1]) || s.Range[0] < lo || s.Range[1] > hi || math.IsNaN(s.Typical) {
@@ -189,23 +188,6 @@ func mapKeys[V any](m map[string]V) func(func(string) bool) {
 			}
 		}
 	}
-}
-
-// fieldPath writes a YAML path as a field name: management[2].moves[0].share.
-func fieldPath(path []any) string {
-	var b strings.Builder
-	for _, p := range path {
-		switch v := p.(type) {
-		case int:
-			fmt.Fprintf(&b, "[%d]", v)
-		default:
-			if b.Len() > 0 {
-				b.WriteString(".")
-			}
-			fmt.Fprint(&b, v)
-		}
-	}
-	return b.String()
 }
 
 // Management returns the forcing of a management tag (by id or alias), or
