@@ -2,6 +2,7 @@ package knowledge
 
 import (
 	"io/fs"
+	"maps"
 	"math"
 	"nlens/knowledge/input"
 	"slices"
@@ -147,7 +148,7 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 			at([]any{"management", i, "label"}, "missing")
 		}
 		checkEffect([]any{"management", i}, m.Moves, m.Rates)
-		for _, sev := range slices.Sorted(mapKeys(m.Severity)) {
+		for _, sev := range slices.Sorted(maps.Keys(m.Severity)) {
 			if !slices.Contains(Severities, sev) {
 				at([]any{"management", i, "severity", sev}, "unknown severity %q (%s)", sev, strings.Join(Severities, ", "))
 			}
@@ -178,16 +179,6 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 	}
 	b.Forcings = f
 	return errs.Err()
-}
-
-func mapKeys[V any](m map[string]V) func(func(string) bool) {
-	return func(yield func(string) bool) {
-		for k := range m {
-			if !yield(k) {
-				return
-			}
-		}
-	}
 }
 
 // Management returns the forcing of a management tag (by id or alias), or
