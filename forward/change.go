@@ -112,6 +112,7 @@ func PrepareKnob(s *Site, k *Knob) {
 }
 
 // knobTransfers is k.Transfers, or the lookup when it was not prepared.
+// Every use of a share or factor knob's transfers goes through it.
 func knobTransfers(s *Site, k Knob) []int {
 	if k.Transfers != nil {
 		return k.Transfers
@@ -620,7 +621,7 @@ func KnobValue(s *Site, p *Params, k Knob) float64 {
 	}
 	switch k.Kind {
 	case KnobShare:
-		js := transfers(s, k.Processes, k.From)
+		js := knobTransfers(s, k)
 		donor := make([]bool, len(s.Pools))
 		for _, j := range js {
 			donor[s.Transfers[j].From] = true
@@ -656,7 +657,7 @@ func KnobValue(s *Site, p *Params, k Knob) float64 {
 func KnobTransfers(s *Site, k Knob) []int {
 	switch k.Kind {
 	case KnobShare, KnobFactor:
-		return transfers(s, k.Processes, k.From)
+		return knobTransfers(s, k)
 	case KnobNitrateShare:
 		return transfers(s, []string{procUptakeNitrate}, "")
 	case KnobTransferRatio, KnobRoute:

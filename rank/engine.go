@@ -233,12 +233,12 @@ func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 		}
 	case rules.KnobShare, rules.KnobNitrateShare, rules.KnobTransferRatio, rules.KnobRoute, rules.KnobFixation:
 		fk := responseKnob(s, e.kb, c)
-		if k.kind == rules.KnobShare && len(forward.KnobTransfers(s, fk)) == 0 {
+		forward.PrepareKnob(s, &fk)
+		k.fluxJ = forward.KnobTransfers(s, fk)
+		if k.kind == rules.KnobShare && len(k.fluxJ) == 0 {
 			return nil, "the site has no transfer for it"
 		}
-		forward.PrepareKnob(s, &fk)
 		k.fk = &fk
-		k.fluxJ = forward.KnobTransfers(s, fk)
 		k.baseline = forward.KnobValue(s, &e.draws[0].params, fk)
 		if rules.IsShare(k.kind) {
 			k.baseD = e.pc.baselines(c.ID, len(e.draws), func(d int) float64 {
