@@ -260,11 +260,7 @@ func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 	default:
 		return nil, ""
 	}
-	fine := fine1
-	if pair {
-		fine = fine2
-	}
-	k.ax = newAxis(m.Prior, lo, hi, nodesFor(m.Prior, pair), fine)
+	k.ax = newAxis(m.Prior, lo, hi, nodesFor(m.Prior, pair), fineFor(pair))
 	return k, ""
 }
 
@@ -359,11 +355,7 @@ func (e *engine) predict(w *worker, d int, knobs []*knob, theta []float64, out [
 
 // durationKnob is the pulse duration of a response.
 func durationKnob(c *rules.Candidate, pair bool) *knob {
-	fine := fine1
-	if pair {
-		fine = fine2
-	}
-	return &knob{cand: c, kind: kindDuration, ax: newAxis(rules.PriorLogUniform, pulseMinYears, pulseMaxYears, nodesFor(rules.PriorLogUniform, pair), fine)}
+	return &knob{cand: c, kind: kindDuration, ax: newAxis(rules.PriorLogUniform, pulseMinYears, pulseMaxYears, nodesFor(rules.PriorLogUniform, pair), fineFor(pair))}
 }
 
 // setup makes the draws, baselines and weights.

@@ -26,6 +26,15 @@ const (
 	coarseShare2 = 9
 )
 
+// fineFor returns the fine point count of a single (pair false) or pair
+// evaluation.
+func fineFor(pair bool) int {
+	if pair {
+		return fine2
+	}
+	return fine1
+}
+
 // nodesFor returns the coarse node count for a prior in a single (pair
 // false) or pair evaluation.
 func nodesFor(prior string, pair bool) int {
