@@ -572,7 +572,13 @@ func (r *Run) TrajectoryInto(m *Model, base *Params, c *Change, x0 *State, times
 			if cut <= prev {
 				continue
 			}
-			if err := c.ParamsAt(m.Site, base, prev, &p); err != nil {
+			// A step from the previous time starts under the parameters
+			// already found for it (prev is then times[i-1]); a step from
+			// a break needs its own.
+			pp := &p
+			if i > 0 && prev == times[i-1] {
+				pp = &params[i-1]
+			} else if err := c.ParamsAt(m.Site, base, prev, &p); err != nil {
 				return nil, nil, err
 			}
 			// Steps of an even grid differ in their last bits (i·h −
@@ -582,7 +588,7 @@ func (r *Run) TrajectoryInto(m *Model, base *Params, c *Change, x0 *State, times
 			if math.Abs(dt-lastDt) <= 1e-12*lastDt {
 				dt = lastDt
 			}
-			if err := m.Advance(&p, &cur, dt, withO, &next); err != nil {
+			if err := m.Advance(pp, &cur, dt, withO, &next); err != nil {
 				return nil, nil, err
 			}
 			cur, next = next, cur
