@@ -112,6 +112,7 @@ func PrepareKnob(s *Site, k *Knob) {
 }
 
 // knobTransfers is k.Transfers, or the lookup when it was not prepared.
+// Every use of a share or factor knob's transfers goes through it.
 func knobTransfers(s *Site, k Knob) []int {
 	if k.Transfers != nil {
 		return k.Transfers
@@ -571,7 +572,13 @@ func (r *Run) TrajectoryInto(m *Model, base *Params, c *Change, x0 *State, times
 			if cut <= prev {
 				continue
 			}
-			if err := c.ParamsAt(m.Site, base, prev, &p); err != nil {
+			// A step from the previous time starts under the parameters
+			// already found for it (prev is then times[i-1]); a step from
+			// a break needs its own.
+			pp := &p
+			if i > 0 && prev == times[i-1] {
+				pp = &params[i-1]
+			} else if err := c.ParamsAt(m.Site, base, prev, &p); err != nil {
 				return nil, nil, err
 			}
 			// Steps of an even grid differ in their last bits (i·h −
@@ -581,7 +588,7 @@ func (r *Run) TrajectoryInto(m *Model, base *Params, c *Change, x0 *State, times
 			if math.Abs(dt-lastDt) <= 1e-12*lastDt {
 				dt = lastDt
 			}
-			if err := m.Advance(&p, &cur, dt, withO, &next); err != nil {
+			if err := m.Advance(pp, &cur, dt, withO, &next); err != nil {
 				return nil, nil, err
 			}
 			cur, next = next, cur
@@ -620,7 +627,7 @@ func KnobValue(s *Site, p *Params, k Knob) float64 {
 	}
 	switch k.Kind {
 	case KnobShare:
-		js := transfers(s, k.Processes, k.From)
+		js := knobTransfers(s, k)
 		donor := make([]bool, len(s.Pools))
 		for _, j := range js {
 			donor[s.Transfers[j].From] = true
@@ -656,7 +663,7 @@ func KnobValue(s *Site, p *Params, k Knob) float64 {
 func KnobTransfers(s *Site, k Knob) []int {
 	switch k.Kind {
 	case KnobShare, KnobFactor:
-		return transfers(s, k.Processes, k.From)
+		return knobTransfers(s, k)
 	case KnobNitrateShare:
 		return transfers(s, []string{procUptakeNitrate}, "")
 	case KnobTransferRatio, KnobRoute:

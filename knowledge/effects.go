@@ -114,7 +114,7 @@ func (b *Base) loadEffects(fsys fs.FS) error {
 		e := &f.Effects[i]
 		e.Line = doc.Line("effects", i)
 		at := func(key, format string, args ...any) {
-			errs = append(errs, doc.Errorf(fmt.Sprintf("effects[%d].%s", i, key), []any{"effects", i, key}, format, args...))
+			errs = append(errs, doc.ErrorAt([]any{"effects", i, key}, format, args...))
 		}
 		if !slices.Contains(Processes, e.ID) {
 			at("id", "unknown process %q", e.ID)
@@ -181,7 +181,7 @@ func (b *Base) loadFungalPhysiology(doc *input.Doc, list []FungalPhysiology) inp
 		fp := &list[i]
 		fp.Line = doc.Line("mycorrhizal_types", i)
 		at := func(key, format string, args ...any) {
-			errs = append(errs, doc.Errorf(fmt.Sprintf("mycorrhizal_types[%d].%s", i, key), []any{"mycorrhizal_types", i, key}, format, args...))
+			errs = append(errs, doc.ErrorAt([]any{"mycorrhizal_types", i, key}, format, args...))
 		}
 		switch {
 		case !slices.Contains(MycorrhizalTypes, fp.Type) || fp.Type == "none":

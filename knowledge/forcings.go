@@ -1,8 +1,8 @@
 package knowledge
 
 import (
-	"fmt"
 	"io/fs"
+	"maps"
 	"math"
 	"nlens/knowledge/input"
 	"slices"
@@ -91,7 +91,7 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 	}
 	var errs input.Errors
 	at := func(path []any, format string, args ...any) {
-		errs = append(errs, doc.Errorf(fieldPath(path), path, format, args...))
+		errs = append(errs, doc.ErrorAt(path, format, args...))
 	}
 	checkSize := func(path []any, s Size, lo, hi float64) {
 		if len(s.Range) != 2 || !(s.Range[0] <= s.Typical && s.Typical <= s.Range[1]) || s.Range[0] < lo || s.Range[1] > hi || math.IsNaN(s.Typical) {
@@ -148,7 +148,7 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 			at([]any{"management", i, "label"}, "missing")
 		}
 		checkEffect([]any{"management", i}, m.Moves, m.Rates)
-		for _, sev := range slices.Sorted(mapKeys(m.Severity)) {
+		for _, sev := range slices.Sorted(maps.Keys(m.Severity)) {
 			if !slices.Contains(Severities, sev) {
 				at([]any{"management", i, "severity", sev}, "unknown severity %q (%s)", sev, strings.Join(Severities, ", "))
 			}
@@ -179,33 +179,6 @@ func (b *Base) loadForcings(fsys fs.FS) error {
 	}
 	b.Forcings = f
 	return errs.Err()
-}
-
-func mapKeys[V any](m map[string]V) func(func(string) bool) {
-	return func(yield func(string) bool) {
-		for k := range m {
-			if !yield(k) {
-				return
-			}
-		}
-	}
-}
-
-// fieldPath writes a YAML path as a field name: management[2].moves[0].share.
-func fieldPath(path []any) string {
-	var b strings.Builder
-	for _, p := range path {
-		switch v := p.(type) {
-		case int:
-			fmt.Fprintf(&b, "[%d]", v)
-		default:
-			if b.Len() > 0 {
-				b.WriteString(".")
-			}
-			fmt.Fprint(&b, v)
-		}
-	}
-	return b.String()
 }
 
 // Management returns the forcing of a management tag (by id or alias), or

@@ -1,7 +1,6 @@
 package knowledge
 
 import (
-	"fmt"
 	"io/fs"
 	"nlens/knowledge/input"
 	"slices"
@@ -67,7 +66,7 @@ func (b *Base) loadMeasurements(fsys fs.FS) error {
 		m := &f.Measurements[i]
 		m.Line = doc.Line("measurements", i)
 		at := func(key, format string, args ...any) {
-			errs = append(errs, doc.Errorf(fmt.Sprintf("measurements[%d].%s", i, key), []any{"measurements", i, key}, format, args...))
+			errs = append(errs, doc.ErrorAt([]any{"measurements", i, key}, format, args...))
 		}
 		if m.ID == "" {
 			at("id", "missing")

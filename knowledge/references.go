@@ -92,7 +92,7 @@ func (b *Base) loadReferences(fsys fs.FS) error {
 		r := &f.References[i]
 		r.Line = doc.Line("references", i)
 		at := func(key, format string, args ...any) {
-			errs = append(errs, doc.Errorf(fmt.Sprintf("references[%d].%s", i, key), []any{"references", i, key}, format, args...))
+			errs = append(errs, doc.ErrorAt([]any{"references", i, key}, format, args...))
 		}
 		if !reKey.MatchString(r.Key) {
 			at("key", "expected a lower-case key like houlton2009 or usgs-nitrogen, got %q", r.Key)

@@ -104,7 +104,7 @@ func (b *Base) loadSources(fsys fs.FS) error {
 		s := &f.Sources[i]
 		s.Line = doc.Line("sources", i)
 		at := func(key, format string, args ...any) {
-			errs = append(errs, doc.Errorf(fmt.Sprintf("sources[%d].%s", i, key), []any{"sources", i, key}, format, args...))
+			errs = append(errs, doc.ErrorAt([]any{"sources", i, key}, format, args...))
 		}
 		if s.ID == "" {
 			at("id", "missing")

@@ -233,12 +233,12 @@ func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 		}
 	case rules.KnobShare, rules.KnobNitrateShare, rules.KnobTransferRatio, rules.KnobRoute, rules.KnobFixation:
 		fk := responseKnob(s, e.kb, c)
-		if k.kind == rules.KnobShare && len(forward.KnobTransfers(s, fk)) == 0 {
+		forward.PrepareKnob(s, &fk)
+		k.fluxJ = forward.KnobTransfers(s, fk)
+		if k.kind == rules.KnobShare && len(k.fluxJ) == 0 {
 			return nil, "the site has no transfer for it"
 		}
-		forward.PrepareKnob(s, &fk)
 		k.fk = &fk
-		k.fluxJ = forward.KnobTransfers(s, fk)
 		k.baseline = forward.KnobValue(s, &e.draws[0].params, fk)
 		if rules.IsShare(k.kind) {
 			k.baseD = e.pc.baselines(c.ID, len(e.draws), func(d int) float64 {
@@ -260,11 +260,7 @@ func (e *engine) compile(c *rules.Candidate, pair bool) (*knob, string) {
 	default:
 		return nil, ""
 	}
-	fine := fine1
-	if pair {
-		fine = fine2
-	}
-	k.ax = newAxis(m.Prior, lo, hi, nodesFor(m.Prior, pair), fine)
+	k.ax = newAxis(m.Prior, lo, hi, nodesFor(m.Prior, pair), fineFor(pair))
 	return k, ""
 }
 
@@ -359,11 +355,7 @@ func (e *engine) predict(w *worker, d int, knobs []*knob, theta []float64, out [
 
 // durationKnob is the pulse duration of a response.
 func durationKnob(c *rules.Candidate, pair bool) *knob {
-	fine := fine1
-	if pair {
-		fine = fine2
-	}
-	return &knob{cand: c, kind: kindDuration, ax: newAxis(rules.PriorLogUniform, pulseMinYears, pulseMaxYears, nodesFor(rules.PriorLogUniform, pair), fine)}
+	return &knob{cand: c, kind: kindDuration, ax: newAxis(rules.PriorLogUniform, pulseMinYears, pulseMaxYears, nodesFor(rules.PriorLogUniform, pair), fineFor(pair))}
 }
 
 // setup makes the draws, baselines and weights.

@@ -392,6 +392,23 @@ func (s *scored) fit(e *engine, m []Moments, lo, hi int) Fit {
 // posterior reaches both bounds, a posterior piled against one reaches it.
 const atBoundShare = 0.05
 
+// interval returns the 5 % quantile, median and 95 % quantile (natural
+// units) of a marginal on the axis's fine grid, and which prior bounds the
+// interval reaches ("low", "high", "both" or "").
+func (ax *axis) interval(marg []float64) (low, best, high float64, atBound string) {
+	u05, u50, u95 := quantileU(marg, ax.ulo, ax.uhi, 0.05), quantileU(marg, ax.ulo, ax.uhi, 0.5), quantileU(marg, ax.ulo, ax.uhi, 0.95)
+	w := atBoundShare * (ax.uhi - ax.ulo)
+	switch lowAt, highAt := u05 <= ax.ulo+w, u95 >= ax.uhi-w; {
+	case lowAt && highAt:
+		atBound = "both"
+	case lowAt:
+		atBound = "low"
+	case highAt:
+		atBound = "high"
+	}
+	return ax.toNatural(u05), ax.toNatural(u50), ax.toNatural(u95), atBound
+}
+
 // marginal returns the posterior mass of each fine point of axis a.
 func (s *scored) marginal(a int) []float64 {
 	marg := make([]float64, s.nf[a])
@@ -427,19 +444,7 @@ func (s *scored) magnitudes() []Magnitude {
 			m.Baseline = 0
 		}
 		ax := &k.ax
-		uq := func(q float64) float64 { return quantileU(marg, ax.ulo, ax.uhi, q) }
-		u05, u50, u95 := uq(0.05), uq(0.5), uq(0.95)
-		m.Low, m.Best, m.High = ax.toNatural(u05), ax.toNatural(u50), ax.toNatural(u95)
-		w := atBoundShare * (ax.uhi - ax.ulo)
-		lowAt, highAt := u05 <= ax.ulo+w, u95 >= ax.uhi-w
-		switch {
-		case lowAt && highAt:
-			m.AtBound = "both"
-		case lowAt:
-			m.AtBound = "low"
-		case highAt:
-			m.AtBound = "high"
-		}
+		m.Low, m.Best, m.High, m.AtBound = ax.interval(marg)
 		m.PriorLow, m.PriorHigh = ax.lo, ax.hi
 		m.Modes = modes(marg, ax)
 		out = append(out, m)
@@ -519,19 +524,9 @@ func (s *scored) duration() *Duration {
 		if k.kind != kindDuration {
 			continue
 		}
-		marg := s.marginal(a)
 		ax := &k.ax
-		u05, u50, u95 := quantileU(marg, ax.ulo, ax.uhi, 0.05), quantileU(marg, ax.ulo, ax.uhi, 0.5), quantileU(marg, ax.ulo, ax.uhi, 0.95)
-		d := &Duration{Best: ax.toNatural(u50), Low: ax.toNatural(u05), High: ax.toNatural(u95), PriorLow: ax.lo, PriorHigh: ax.hi}
-		w := atBoundShare * (ax.uhi - ax.ulo)
-		switch lowAt, highAt := u05 <= ax.ulo+w, u95 >= ax.uhi-w; {
-		case lowAt && highAt:
-			d.AtBound = "both"
-		case lowAt:
-			d.AtBound = "low"
-		case highAt:
-			d.AtBound = "high"
-		}
+		d := &Duration{PriorLow: ax.lo, PriorHigh: ax.hi}
+		d.Low, d.Best, d.High, d.AtBound = ax.interval(s.marginal(a))
 		return d
 	}
 	return nil

@@ -26,6 +26,15 @@ const (
 	coarseShare2 = 9
 )
 
+// fineFor returns the fine point count of a single (pair false) or pair
+// evaluation.
+func fineFor(pair bool) int {
+	if pair {
+		return fine2
+	}
+	return fine1
+}
+
 // nodesFor returns the coarse node count for a prior in a single (pair
 // false) or pair evaluation.
 func nodesFor(prior string, pair bool) int {
@@ -57,22 +66,20 @@ type axis struct {
 // never extrapolates.
 func newAxis(prior string, lo, hi float64, nc, nf int) axis {
 	a := axis{prior: prior, lo: lo, hi: hi}
-	to := math.Exp
 	ulo, uhi := math.Log(lo), math.Log(hi)
 	if prior == rules.PriorLogitUniform {
-		to = logistic
 		ulo, uhi = logit(lo), logit(hi)
 	}
 	a.ulo, a.uhi = ulo, uhi
 	uNodes := make([]float64, nc)
 	for i := range nc {
 		uNodes[i] = ulo + (uhi-ulo)*float64(i)/float64(nc-1)
-		a.nodes = append(a.nodes, to(uNodes[i]))
+		a.nodes = append(a.nodes, a.toNatural(uNodes[i]))
 	}
 	uFine := make([]float64, nf)
 	for i := range nf {
 		uFine[i] = ulo + (uhi-ulo)*(float64(i)+0.5)/float64(nf)
-		a.fine = append(a.fine, to(uFine[i]))
+		a.fine = append(a.fine, a.toNatural(uFine[i]))
 	}
 	a.w = splineWeights(uNodes, uFine)
 	return a
