@@ -100,9 +100,51 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 		}
 	}
 	e.pc.store(id, nCoarse, nd, no, coarse)
-	s.pred = e.pc.finePred(id, nCoarse, nd, func() []float64 { return interpolate(coarse, knobs, s.nc, s.nf, nd*no) })
-	s.likelihood(e, none)
+	fc := e.pc.finePred(id, nCoarse, nd, func() []float64 { return interpolate(coarse, knobs, s.nc, s.nf, nd*no) })
+	s.pred = fc.pred
+	s.likelihood(e)
+	if none != nil {
+		// The departure from none depends on the design and draws, not on
+		// the observed shifts: computed once for every comparison of it.
+		// Keyed also by none's draws: the weights of the first nd draws,
+		// renormalised, differ in the last bit with the total.
+		dep := e.pc.departure(fmt.Sprintf("%s@%d/%d", id, nd, none.nd), func() []float64 { return s.maxDeparture(none) })
+		for o, d := range dep {
+			if v := d / e.observed[o].SE; !math.IsNaN(v) {
+				s.signal = math.Max(s.signal, v)
+			}
+		}
+	}
 	return s
+}
+
+// maxDeparture returns, for each observable, the largest departure over
+// the fine points of the draw-averaged predictions from none's (draw by
+// draw, then averaged with the draw weights).
+func (s *scored) maxDeparture(none *scored) []float64 {
+	nF, nd, no := s.fineCount(), s.nd, s.no
+	w := make([]float64, nd)
+	for d, lw := range s.logw {
+		w[d] = math.Exp(lw)
+	}
+	out := make([]float64, no)
+	mean := make([]float64, no)
+	for f := range nF {
+		clear(mean)
+		for d := range nd {
+			p := s.pred[(f*nd+d)*no:][:no]
+			p0 := none.pred[min(d, none.nd-1)*no:][:no]
+			for o, v := range p {
+				mean[o] += w[d] * (v - p0[o])
+			}
+		}
+		for o, m := range mean {
+			if a := math.Abs(m); a > out[o] {
+				out[o] = a
+			}
+		}
+	}
+	return out
 }
 
 // coarseCache holds one hypothesis's coarse predictions for its first nd
@@ -118,9 +160,11 @@ type predCache struct {
 	mu sync.Mutex
 	m  map[string]*coarseCache
 	// fine are the predictions carried to the fine grid, by id and number
-	// of draws; bases the baseline share of each draw, by
+	// of draws; deps their largest departures from none's, by id, number
+	// of draws and none's draws; bases the baseline share of each draw, by
 	// candidate id.
-	fine  map[string]fineCache
+	fine  map[string]*fineCache
+	deps  map[string]*depOnce
 	bases map[string][]float64
 	// draws are the design's nuisance draws made so far (read only).
 	draws []draw
@@ -148,30 +192,58 @@ func (pc *predCache) drawsFor(from, to int, mk func(from, to int) ([]draw, error
 	return all[from:to:to], nil
 }
 
+// fineCache is one hypothesis's fine-grid predictions for nd draws.
 type fineCache struct {
 	nCoarse, nd int
 	pred        []float64
 }
 
+// depOnce is a departure from none computed once.
+type depOnce struct {
+	once sync.Once
+	dep  []float64
+}
+
+// departure returns the departure kept under key, computing it once. The
+// returned slice is shared: callers must not change it.
+func (pc *predCache) departure(key string, compute func() []float64) []float64 {
+	pc.mu.Lock()
+	if pc.deps == nil {
+		pc.deps = map[string]*depOnce{}
+	}
+	d, ok := pc.deps[key]
+	if !ok {
+		d = &depOnce{}
+		pc.deps[key] = d
+	}
+	pc.mu.Unlock()
+	d.once.Do(func() { d.dep = compute() })
+	return d.dep
+}
+
 // finePred returns the fine-grid predictions of the hypothesis for nd
 // draws, interpolating (and keeping) them if they are not kept yet. The
-// returned slice is shared: callers must not change it.
-func (pc *predCache) finePred(id string, nCoarse, nd int, make func() []float64) []float64 {
+// returned predictions are shared: callers must not change them.
+func (pc *predCache) finePred(id string, nCoarse, nd int, make func() []float64) *fineCache {
 	pc.mu.Lock()
 	key := fmt.Sprintf("%s@%d", id, nd)
 	if f, ok := pc.fine[key]; ok && f.nCoarse == nCoarse {
 		pc.mu.Unlock()
-		return f.pred
+		return f
 	}
 	pc.mu.Unlock()
-	pred := make()
+	f := &fineCache{nCoarse: nCoarse, nd: nd, pred: make()}
 	pc.mu.Lock()
 	if pc.fine == nil {
-		pc.fine = map[string]fineCache{}
+		pc.fine = map[string]*fineCache{}
 	}
-	pc.fine[key] = fineCache{nCoarse: nCoarse, nd: nd, pred: pred}
+	if old, ok := pc.fine[key]; ok && old.nCoarse == nCoarse {
+		f = old // another unit of the design was first
+	} else {
+		pc.fine[key] = f
+	}
 	pc.mu.Unlock()
-	return pred
+	return f
 }
 
 // baselines returns the baseline share of a candidate's knob in each of n
@@ -266,10 +338,8 @@ func interpolate(coarse []float64, knobs []*knob, nc, nf []int, blk int) []float
 	return cur
 }
 
-// likelihood fills q and logZ from the predictions, and the departure
-// from none's predictions (draw by draw, then averaged with the draw
-// weights) in observed standard errors.
-func (s *scored) likelihood(e *engine, none *scored) {
+// likelihood fills q and logZ from the predictions.
+func (s *scored) likelihood(e *engine) {
 	nF, nd, no := s.fineCount(), s.nd, s.no
 	logq := make([]float64, nF*nd)
 	logPrior := -math.Log(float64(nF))
@@ -277,7 +347,6 @@ func (s *scored) likelihood(e *engine, none *scored) {
 	for o := range no {
 		norm += -0.5 * math.Log(2*math.Pi*e.variance[o])
 	}
-	mean := make([]float64, no)
 	halfInv := make([]float64, no) // 0.5/variance
 	for o := range no {
 		halfInv[o] = 0.5 / e.variance[o]
@@ -288,33 +357,17 @@ func (s *scored) likelihood(e *engine, none *scored) {
 		w[d] = math.Exp(lw)
 	}
 	for f := range nF {
-		clear(mean)
 		for d := range nd {
 			var ll float64
 			p := s.pred[(f*nd+d)*no : (f*nd+d+1)*no]
-			if none != nil {
-				p0 := none.pred[min(d, none.nd-1)*no:][:no]
-				wd := w[d]
-				for o, v := range p {
-					r := shift[o] - v
-					ll -= r * r * halfInv[o]
-					mean[o] += wd * (v - p0[o])
-				}
-			} else {
-				for o, v := range p {
-					r := shift[o] - v
-					ll -= r * r * halfInv[o]
-				}
+			for o, v := range p {
+				r := shift[o] - v
+				ll -= r * r * halfInv[o]
 			}
 			if math.IsNaN(ll) {
 				ll = math.Inf(-1)
 			}
 			logq[f*nd+d] = s.logw[d] + logPrior + ll + norm
-		}
-		for o := range no {
-			if v := math.Abs(mean[o]) / e.observed[o].SE; !math.IsNaN(v) {
-				s.signal = math.Max(s.signal, v)
-			}
 		}
 	}
 	// Normalise: q = exp(logq − max)/Σ, ln Z = max + ln Σ (one exp each).
@@ -332,7 +385,12 @@ func (s *scored) likelihood(e *engine, none *scored) {
 	} else {
 		var sum float64
 		for i, x := range logq {
-			v := math.Exp(x - mx)
+			// Below e^−50 of the largest term a weight cannot move any
+			// summary; skipping its exp halves the cost on sharp data.
+			v := 0.0
+			if x-mx > -50 {
+				v = math.Exp(x - mx)
+			}
 			s.q[i] = v
 			sum += v
 		}
@@ -416,8 +474,13 @@ func (s *scored) marginal(a int) []float64 {
 	for _, v := range s.nf[a+1:] {
 		inner *= v
 	}
-	for i, q := range s.q {
-		marg[(i/inner)%s.nf[a]] += q
+	// q is laid out [outer][fine point of a][inner]: sum each inner run.
+	for i := 0; i < len(s.q); i += inner {
+		var sum float64
+		for _, q := range s.q[i : i+inner] {
+			sum += q
+		}
+		marg[(i/inner)%s.nf[a]] += sum
 	}
 	return marg
 }
