@@ -973,12 +973,15 @@ func (e *engine) pairJobs(entries []entry, none *scored) [][2]entry {
 	order := func(c *rules.Candidate) int {
 		return slices.IndexFunc(e.set.Candidates, func(o rules.Candidate) bool { return o.ID == c.ID })
 	}
-	add := func(a, b entry) {
+	pairable := func(a, b entry) bool {
 		ca, cb := a.cands[0], b.cands[0]
-		if ca.ID == cb.ID || (ca.Response != "" && ca.Response == cb.Response) || len(jobs) >= maxPairs {
+		return ca.ID != cb.ID && (ca.Response == "" || ca.Response != cb.Response)
+	}
+	add := func(a, b entry) {
+		if !pairable(a, b) || len(jobs) >= maxPairs {
 			return
 		}
-		if order(cb) < order(ca) {
+		if order(b.cands[0]) < order(a.cands[0]) {
 			a, b = b, a
 		}
 		key := a.cands[0].ID + "+" + b.cands[0].ID
@@ -987,6 +990,11 @@ func (e *engine) pairJobs(entries []entry, none *scored) [][2]entry {
 		}
 		seen[key] = true
 		jobs = append(jobs, [2]entry{a, b})
+	}
+	// The joint screen's pairs first: the only source that searches both
+	// magnitudes of every pair.
+	for _, p := range e.screenJoint(pool, none, pairable) {
+		add(p[0], p[1])
 	}
 	top := pool[:min(from, len(pool))]
 	for i := range top {

@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
+	"slices"
 	"sort"
 	"strings"
 	"testing"
@@ -29,9 +30,13 @@ type truth struct {
 	// value (a share, or kg N/ha/yr).
 	response string
 	value    float64
-	want     string   // hypothesis id expected to win (response, or "none")
-	obs      []string // observables "measured"
-	n        int      // replicates per group
+	// response2 at value2, if set, is a second response acting with the
+	// first (a pair truth).
+	response2 string
+	value2    float64
+	want      string   // hypothesis id expected to win (response, or "none")
+	obs       []string // observables "measured"
+	n         int      // replicates per group
 	// noiseFree: group means are the model's values exactly (the SEs stay
 	// those of n replicates), to test what the design can identify.
 	noiseFree bool
@@ -78,6 +83,13 @@ func synthesize(t *testing.T, kb *knowledge.Base, tr truth, seed uint64) *study.
 			t.Fatal(err)
 		}
 		change.Mods = append(append([]forward.Mod(nil), forcing.Mods...), mod)
+	}
+	if tr.response2 != "" {
+		mod, err := ResponseMod(site, kb, set.Candidate(tr.response2), tr.value2)
+		if err != nil {
+			t.Fatal(err)
+		}
+		change.Mods = append(slices.Clip(change.Mods), mod)
 	}
 	m := forward.NewModel(site)
 	var before, after forward.State
