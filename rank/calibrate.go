@@ -49,7 +49,8 @@ type CalibrationCase struct {
 	Rank int
 	// Rivals counts the other single responses that reproduce a single
 	// truth's noise-free shifts on the truth site within RivalSE somewhere
-	// in their prior range (−1 for none and pairs): a truth with rivals
+	// in their prior range (for a pair, the singles that reproduce the
+	// pair, its own parts included; −1 for none): a truth with rivals
 	// cannot be told from them by these observables.
 	Rivals int
 	// Top is the leading hypothesis and its posterior; TruthPosterior the
@@ -344,16 +345,17 @@ func calibrationCase(ctx context.Context, kb *knowledge.Base, set *rules.Set, op
 	}
 	out := CalibrationCase{Site: siteID, Treatment: treatmentWords(tr), Truth: id, Years: years, Rank: -1, Top: cr.Hypotheses[0].ID,
 		TopPosterior: cr.Hypotheses[0].Posterior, Distance: math.Sqrt(dist), Pair: len(truth) > 1, Rivals: -1}
-	if len(truth) == 1 {
-		// Rivals: the other singles scanned over their prior range on the
-		// truth site, each share moved by its logit step as explain does.
+	if len(truth) > 0 {
+		// Rivals: the other singles (every single, for a pair) scanned
+		// over their prior range on the truth site, each share moved by
+		// its logit step as explain does.
 		ses := make([]float64, len(obs))
 		for i, name := range obs {
 			ses[i] = math.Sqrt2 * fieldSD(kb, name) / math.Sqrt(n)
 		}
 		out.Rivals = 0
 		for _, op := range opts {
-			if op.c.ID == truth[0].c.ID {
+			if len(truth) == 1 && op.c.ID == truth[0].c.ID {
 				continue
 			}
 			best := math.Inf(1)
@@ -476,7 +478,7 @@ func summarise(cases []CalibrationCase) *Calibration {
 	}
 	var hits1, hits2, idHits, covered, uniqueHits, rivalHits int
 	for _, k := range cases {
-		if k.Rivals >= 0 && k.Distance >= IdentifiableSE {
+		if k.Rivals >= 0 && !k.Pair && k.Distance >= IdentifiableSE {
 			if k.Rivals == 0 {
 				c.Unique++
 				if k.Rank == 0 {

@@ -29,9 +29,20 @@ func logCalibration(t *testing.T, c *Calibration) {
 			t.Logf("top posterior %.1f–%.1f: %3d cases, mean %.2f, right %.2f", b.Low, b.High, b.N, b.Confidence, b.Accuracy)
 		}
 	}
+	var listed, apart, apartListed int
 	for _, p := range c.Pairs {
-		t.Logf("true pair %s ranked %d", p.Truth, p.Rank+1)
+		t.Logf("true pair %s ranked %d (dist %.1f, singles reproducing it %d)", p.Truth, p.Rank+1, p.Distance, p.Rivals)
+		if p.Rank >= 0 {
+			listed++
+		}
+		if p.Rivals == 0 && p.Distance >= IdentifiableSE {
+			apart++
+			if p.Rank >= 0 {
+				apartListed++
+			}
+		}
 	}
+	t.Logf("true pairs listed %d of %d; of the %d that no single reproduces and that move the data ≥ %d SE, %d", listed, len(c.Pairs), apart, IdentifiableSE, apartListed)
 }
 
 // The full calibration run: NLENS_CALIBRATE=400 go test ./rank -run
