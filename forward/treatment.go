@@ -144,11 +144,8 @@ func TreatmentChange(s *Site, kb *knowledge.Base, t Treatment, size SizeFunc) (C
 		}
 		var mv []Move
 		for k, f := range moves {
-			to := f.To
-			if to != "out" && s.PoolIndex(to) < 0 {
-				to = f.Fallback
-			}
-			if s.PoolIndex(f.From) < 0 || to == "" || (to != "out" && s.PoolIndex(to) < 0) || f.Share.Typical == 0 && f.Share.Range[1] == 0 {
+			to, ok := MoveTarget(s, f)
+			if !ok || f.Share.Typical == 0 && f.Share.Range[1] == 0 {
 				continue
 			}
 			key := fmt.Sprintf("%s.moves[%d]", m.ID, k)
@@ -231,4 +228,19 @@ func grazingMod(s *Site, id string, g *knowledge.GrazingForcing, size SizeFunc) 
 	}
 	return Mod{Start: 0, End: math.Inf(1), Label: "grazing",
 		Knobs: []Knob{{Kind: KnobShare, Processes: grazingProcs, From: from, Value: off, Weights: weights}}}, nil
+}
+
+// MoveTarget returns where a management move goes on the site: its pool,
+// the fallback where the site lacks that pool, or "out"; ok is false (the
+// move is not applied) where the site lacks the donor pool or both
+// destinations.
+func MoveTarget(s *Site, f knowledge.MoveForcing) (to string, ok bool) {
+	to = f.To
+	if to != "out" && s.PoolIndex(to) < 0 {
+		to = f.Fallback
+	}
+	if s.PoolIndex(f.From) < 0 || to == "" || (to != "out" && s.PoolIndex(to) < 0) {
+		return "", false
+	}
+	return to, true
 }

@@ -825,7 +825,7 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 	// own predicted shifts, fit, fluxes, measurements and paths.
 	var out []ComparisonResult
 	for pi, pt := range e.parts {
-		cr := ComparisonResult{Name: pt.cmp.Name, Years: pt.cmp.Years, Observed: pt.cmp.Observed, Treatment: describeTreatment(kb, pt.tr),
+		cr := ComparisonResult{Name: pt.cmp.Name, Years: pt.cmp.Years, Observed: pt.cmp.Observed, Treatment: describeTreatment(kb, e.site, pt.tr),
 			RuledOut: ruledOut, Series: u.series, Steady: pt.cmp.Steady, ShiftsOnly: pt.cmp.ShiftsOnly, NoFit: noFit, FittedSite: e.fit}
 		for i, h := range joint {
 			h.Predicted = map[string]Moments{}
@@ -1074,7 +1074,7 @@ func (e *engine) pairJobs(entries []entry, none *scored) [][2]entry {
 }
 
 // describeTreatment records what the treatment applies at typical sizes.
-func describeTreatment(kb *knowledge.Base, tr forward.Treatment) Treatment {
+func describeTreatment(kb *knowledge.Base, site *forward.Site, tr forward.Treatment) Treatment {
 	out := Treatment{Severity: tr.Severity}
 	for _, a := range tr.Additions {
 		src, _ := kb.Source(a.Source)
@@ -1104,12 +1104,14 @@ func describeTreatment(kb *knowledge.Base, tr forward.Treatment) Treatment {
 			return fmt.Sprintf("%.0f %% (%.0f–%.0f %%)", 100*s.Typical, 100*s.Range[0], 100*s.Range[1])
 		}
 		for _, mv := range moves {
+			pool, ok := forward.MoveTarget(site, mv)
+			if !ok {
+				am.Actions = append(am.Actions, fmt.Sprintf("%s: not applied, the site has no %s pool", mv.Label, mv.From))
+				continue
+			}
 			to := "out of the site"
-			if mv.To != "out" {
-				to = "to " + mv.To
-				if mv.Fallback != "" {
-					to += " (or " + mv.Fallback + ")"
-				}
+			if pool != "out" {
+				to = "to " + pool
 			}
 			am.Actions = append(am.Actions, fmt.Sprintf("%s: %s of %s %s at the start", mv.Label, pct(mv.Share), mv.From, to))
 		}

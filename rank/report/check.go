@@ -6,6 +6,7 @@ import (
 	"slices"
 	"strings"
 
+	"nlens/forward"
 	"nlens/knowledge"
 	"nlens/rank/study"
 )
@@ -99,11 +100,8 @@ func appliedTreatment(st *study.Study, c *study.Comparison, kb *knowledge.Base) 
 		}
 		out = append(out, fmt.Sprintf("applied in every hypothesis: %s (%s)", label, tag))
 		for _, mv := range moves {
-			to := mv.To
-			if to != "out" && st.Site.PoolIndex(to) < 0 {
-				to = mv.Fallback
-			}
-			if st.Site.PoolIndex(mv.From) < 0 || to == "" || (to != "out" && st.Site.PoolIndex(to) < 0) {
+			to, ok := forward.MoveTarget(st.Site, mv)
+			if !ok {
 				out = append(out, fmt.Sprintf("  - %s: not applied, the site has no %s pool", mv.Label, mv.From))
 				continue
 			}
