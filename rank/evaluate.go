@@ -65,7 +65,7 @@ func (s *scored) fineTheta(f int, theta []float64) []float64 {
 // to the fine grid, and computes the likelihood of every (fine point, draw)
 // and the departure from none (nil when evaluating none itself).
 func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *scored {
-	s := &scored{id: id, knobs: knobs, nd: e.drawsFor(knobs), no: len(e.obs)}
+	s := &scored{id: id, knobs: knobs, nd: e.drawsFor(id, knobs), no: len(e.obs)}
 	s.logw = e.logw
 	if s.nd < len(e.draws) {
 		// The first nd draws, their weights renormalised among themselves.

@@ -522,6 +522,13 @@ func explainUnit(ctx context.Context, e *engine, stream uint64, u unit, prog *pr
 			}
 		}
 		if sc.worst <= mcseTarget || next <= len(e.draws) || opt.FixedDraws {
+			// At the most draws, pairs and pulses (pairDraws each) whose
+			// error keeps a leading posterior above target take every
+			// draw, and the unit is scored again, while there are such
+			// (each pair at most once).
+			if sc.worst > mcseTarget && !opt.FixedDraws && e.leadPairs(sc) {
+				continue
+			}
 			if sc.worst > mcseTarget && !opt.FixedDraws {
 				sc.warnf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", sc.worst, maxDraws, mcseTarget)
 			}
@@ -788,6 +795,68 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 	}
 	sc.noneNoise = hyps[0].Posterior * math.Sqrt(entries[0].s.relVar)
 	return sc, nil
+}
+
+// maxLead is the most pairs and pulses that take every draw.
+const maxLead = mcseTop
+
+// leadPairs marks the pairs and pulses that must take every draw for the
+// leading posteriors to reach their Monte Carlo target once the draws can
+// grow no more, and says whether it marked any. A pair or pulse uses
+// pairDraws draws, so its share of a leading posterior's variance,
+// p_H²·p_k²·relVar_k (p_H²·(1 − p_H)²·relVar_H for the leader itself),
+// does not fall as draws are added. For each of the top mcseTop, while the
+// variance is above target², the pair or pulse with the largest share
+// joins e.lead, which gives it every draw up to DefaultMaxDraws (its share
+// then falls by pairDraws/draws). At most maxLead join, so that their
+// memory stays bounded whatever the draws (a pair at 384 draws keeps about
+// 30 MB of fine-grid predictions for five observables).
+func (e *engine) leadPairs(sc *scoring) bool {
+	sorted, joint := sc.sorted, sc.joint
+	most := float64(len(e.draws))
+	marked := false
+	for i := range min(mcseTop, len(joint)) {
+		pH := joint[i].Posterior
+		var total float64
+		// share: what marking a pair or pulse would take off the variance.
+		type share struct {
+			id string
+			v  float64
+		}
+		var fixed []share
+		for k, en := range sorted {
+			pk := joint[k].Posterior
+			if k == i {
+				pk = 1 - pH
+			}
+			v := pH * pH * pk * pk * en.s.relVar
+			// What a marked pair or pulse scored on fewer draws than it
+			// will take keeps of its share: nd/draws.
+			keep := float64(en.s.nd) / most
+			switch {
+			case len(en.s.knobs) < 2:
+				total += v
+			case e.lead[joint[k].ID]:
+				total += v * keep
+			default:
+				total += v
+				fixed = append(fixed, share{joint[k].ID, v * (1 - keep)})
+			}
+		}
+		sort.SliceStable(fixed, func(a, b int) bool { return fixed[a].v > fixed[b].v })
+		for _, f := range fixed {
+			if total <= mcseTarget*mcseTarget || len(e.lead) >= maxLead {
+				break
+			}
+			if e.lead == nil {
+				e.lead = map[string]bool{}
+			}
+			e.lead[f.id] = true
+			marked = true
+			total -= f.v
+		}
+	}
+	return marked
 }
 
 // report writes the results of a scored unit: one per member comparison,

@@ -2,6 +2,8 @@ package rank
 
 import (
 	"context"
+	"slices"
+	"strings"
 	"testing"
 
 	"nlens/knowledge"
@@ -42,5 +44,81 @@ func TestPairScreenFindsHiddenPair(t *testing.T) {
 			continue
 		}
 		t.Logf("%s ranked %d (%.2f)", want, r+1, c.Hypotheses[r].Posterior)
+	}
+}
+
+// A pair or pulse that keeps a leading posterior's Monte Carlo error above
+// target at the most draws takes every draw (issue 11: the top posteriors'
+// error below 0.02 unless the bound stops the draws). Pairs use pairDraws
+// draws, so before this a leading pair's error stayed where its 16 draws
+// put it and the run ended at the cap with a warning (three of eight
+// published cases written as studies). By hand, 384 draws, pairs scored on
+// 16: posteriors 0.5 (a single, relVar 0.0004), 0.3 (pair A, relVar 0.1)
+// and 0.2 (pair B, relVar 0.01). The single's variance is 0.5²·(0.5²·0.0004
+// + 0.3²·0.1 + 0.2²·0.01) = 0.002375, above 0.02² = 0.0004; A's share
+// 0.5²·0.3²·0.1 = 0.00225 falls to 16/384 of it on every draw, leaving
+// 0.000219, so A is marked. A's own variance, its share scaled so,
+// 0.3²·0.7²·0.1·16/384 + 0.3²·0.5²·0.0004 + 0.3²·0.2²·0.01 = 0.000229, and
+// B's, 0.2²·0.8²·0.01 + 0.2²·0.5²·0.0004 + 0.2²·0.3²·0.1·16/384 = 0.000275,
+// are below target: B is not marked.
+func TestLeadPairsMarksWhatKeepsTheErrorUp(t *testing.T) {
+	two := []*knob{{}, {}}
+	one := []*knob{{}}
+	e := &engine{draws: make([]draw, 384), opt: Options{Draws: 48, MaxDraws: DefaultMaxDraws}}
+	sc := &scoring{
+		sorted: []entry{{s: &scored{knobs: one, nd: 384, relVar: 0.0004}}, {s: &scored{knobs: two, nd: 16, relVar: 0.1}}, {s: &scored{knobs: two, nd: 16, relVar: 0.01}}},
+		joint:  []Hypothesis{{ID: "single", Posterior: 0.5}, {ID: "a+b", Posterior: 0.3, Pair: true}, {ID: "c+d", Posterior: 0.2, Pair: true}},
+	}
+	if !e.leadPairs(sc) {
+		t.Fatal("nothing marked")
+	}
+	if !e.lead["a+b"] || e.lead["c+d"] || e.lead["single"] {
+		t.Errorf("marked %v, want a+b only", e.lead)
+	}
+	if got := e.drawsFor("a+b", two); got != DefaultMaxDraws {
+		t.Errorf("a marked pair uses %d draws, want %d", got, DefaultMaxDraws)
+	}
+	if got := e.drawsFor("c+d", two); got != pairDraws {
+		t.Errorf("an unmarked pair uses %d draws, want %d", got, pairDraws)
+	}
+	// Marked once: asked again, nothing new is needed.
+	if e.leadPairs(sc) {
+		t.Errorf("marked again: %v", e.lead)
+	}
+}
+
+// End to end: a noise-free pair truth on the cropland template leads, and
+// after the pairs that kept the error up took every draw, each of the top
+// three is at the target, or the run says that the bound stopped it.
+func TestLeadingPairReachesTarget(t *testing.T) {
+	if testing.Short() {
+		t.Skip("adaptive draws up to the cap")
+	}
+	kb := knowledge.MustDefault()
+	tr := truth{name: "leading pair", site: "fertilized-cropland", years: years(5), treatment: add("ammonium-nitrate", 33),
+		response: "more-denitrification", value: 0.5, response2: "more-immobilization", value2: 0.4, obs: obsRich, noiseFree: true}
+	st := synthesize(t, kb, tr, 1)
+	res, err := Explain(context.Background(), st, kb, defaultSet(t), Options{Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := res.Comparisons[0]
+	checkInvariants(t, &c, defaultSet(t))
+	warned := slices.ContainsFunc(c.Warnings, func(w string) bool { return strings.Contains(w, "Monte Carlo error") })
+	pairs := 0
+	for _, h := range c.Hypotheses[:mcseTop] {
+		t.Logf("%s %.3f ± %.4f", h.ID, h.Posterior, h.PosteriorMCSE)
+		if h.Pair {
+			pairs++
+		}
+		// With pairs held at 16 draws the second here ended at 0.051
+		// (checked by disabling leadPairs); on every draw it is within a
+		// tenth of the target, and the bound's warning says so.
+		if h.PosteriorMCSE > mcseTarget*1.1 || (h.PosteriorMCSE > mcseTarget && !warned) {
+			t.Errorf("%s: Monte Carlo error %.4f (target %.2f, warned %v)", h.ID, h.PosteriorMCSE, mcseTarget, warned)
+		}
+	}
+	if pairs == 0 {
+		t.Error("no pair among the top three: the test no longer exercises a leading pair")
 	}
 }

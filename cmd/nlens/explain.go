@@ -118,14 +118,18 @@ func runExplain(ctx context.Context, e *env, opt explainOptions) error {
 	if err != nil {
 		return err
 	}
-	if err := checkDraws(opt.draws, st, set); err != nil {
+	if err := checkDraws("--draws", opt.draws, st, set); err != nil {
+		return err
+	}
+	// The doubling may reach --max-draws: its memory is checked the same way.
+	if opt.maxDraws < 1 || opt.maxDraws > rank.MaxDrawsAbsolute {
+		return badf("--max-draws must be between 1 and %d, got %d", rank.MaxDrawsAbsolute, opt.maxDraws)
+	}
+	if err := checkDraws("--max-draws", opt.maxDraws, st, set); err != nil {
 		return err
 	}
 	if ctx == nil {
 		ctx = context.Background()
-	}
-	if opt.maxDraws < 1 || opt.maxDraws > 100000 {
-		return badf("--max-draws must be between 1 and 100000, got %d", opt.maxDraws)
 	}
 	ro := rank.Options{Seed: opt.seed, Draws: opt.draws, MaxDraws: opt.maxDraws, ModelError: opt.modelError, NoSiteFit: opt.noSiteFit, Version: version}
 	if e.stderrTerminal {

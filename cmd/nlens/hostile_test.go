@@ -295,6 +295,9 @@ func TestFlagSweep(t *testing.T) {
 		// for shares, 281 040 bytes and 7641 draws no longer matched the
 		// message checked).
 		{explain("--draws", "100000"), "--draws 100000 would need about 25.8 GiB of memory for this study (270.7 KiB per draw); at most 7747 draws fit in the 2 GiB nlens allows"},
+		// The adaptive draws may reach --max-draws: the same computation.
+		{explain("--max-draws", "100000"), "--max-draws 100000 would need about 25.8 GiB of memory for this study (270.7 KiB per draw); at most 7747 draws fit in the 2 GiB nlens allows"},
+		{explain("--max-draws", "0"), "--max-draws must be between 1 and 100000, got 0"},
 		{simulate("--years", "NaN"), years + "NaN"},
 		{simulate("--years", "+Inf"), years + "+Inf"},
 		{simulate("--years", "-1"), years + "-1"},

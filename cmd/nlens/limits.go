@@ -29,13 +29,14 @@ func checkModelError(sigma float64) error {
 	return nil
 }
 
-// checkDraws refuses a draw count whose estimated memory (rank.DrawBytes)
-// exceeds rank.DrawMemoryBudget, before any computation.
-func checkDraws(draws int, st *study.Study, set *rules.Set) error {
+// checkDraws refuses a draw count (of the flag named) whose estimated
+// memory (rank.DrawBytes) exceeds rank.DrawMemoryBudget, before any
+// computation.
+func checkDraws(flag string, draws int, st *study.Study, set *rules.Set) error {
 	if limit := rank.MaxDraws(st, set); draws > limit {
 		per := rank.DrawBytes(st, set)
-		return badf("--draws %d would need about %s of memory for this study (%s per draw); at most %d draws fit in the %s nlens allows",
-			draws, input.SizeText(int64(draws)*per), input.SizeText(per), limit, input.SizeText(rank.DrawMemoryBudget))
+		return badf("%s %d would need about %s of memory for this study (%s per draw); at most %d draws fit in the %s nlens allows",
+			flag, draws, input.SizeText(int64(draws)*per), input.SizeText(per), limit, input.SizeText(rank.DrawMemoryBudget))
 	}
 	return nil
 }
