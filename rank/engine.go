@@ -112,10 +112,10 @@ type engine struct {
 	// whose posterior was too small to matter to the Monte Carlo error of
 	// the leading ones; later rounds reuse them instead of adding draws.
 	settled map[string]*scored
-	// lead holds the pairs and pulses that were among the leading
-	// hypotheses with a Monte Carlo error above target: they take every
-	// draw (up to DefaultMaxDraws) instead of pairDraws.
-	lead map[string]bool
+	// lead holds the draws given to pairs and pulses whose Monte Carlo
+	// error kept a leading posterior above target (leadPairs), instead of
+	// pairDraws.
+	lead map[string]int
 	// observed observables of every part, their shifts and variances.
 	obs      []forward.Observable
 	observed []study.Observed
@@ -160,8 +160,8 @@ func (e *engine) siteIsCertain() bool {
 
 // drawsFor returns how many draws hypothesis id uses: only the nominal one
 // when the site is certain and no knob draws a source δ; otherwise all of
-// them, at most pairDraws for a pair or pulse (two axes) unless it leads
-// (e.lead: then at most DefaultMaxDraws, which bounds its memory), and at
+// them, at most pairDraws for a pair or pulse (two axes) unless leadPairs
+// gave it more (e.lead, at most maxLeadDraws), and at
 // most the larger of Options.MaxDraws and Options.Draws for any hypothesis
 // with a magnitude (the treatment alone, one forward run per draw, may use
 // every draw: see treatmentAloneDraws).
@@ -171,11 +171,7 @@ func (e *engine) drawsFor(id string, knobs []*knob) int {
 		n = min(n, max(e.opt.MaxDraws, e.opt.Draws))
 	}
 	if len(knobs) > 1 {
-		if e.lead[id] {
-			n = min(n, DefaultMaxDraws)
-		} else {
-			n = min(n, pairDraws)
-		}
+		n = min(n, max(pairDraws, e.lead[id]))
 	}
 	if !e.siteCertain {
 		return n

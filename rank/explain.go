@@ -527,10 +527,17 @@ func explainUnit(ctx context.Context, e *engine, stream uint64, u unit, prog *pr
 			// draw, and the unit is scored again, while there are such
 			// (each pair at most once).
 			if sc.worst > mcseTarget && !opt.FixedDraws && e.leadPairs(sc) {
+				// The same draws: every hypothesis but those given more
+				// is reused as scored.
+				for _, en := range sc.sorted {
+					if en.s.nd >= e.lead[en.s.id] {
+						e.settled[en.s.id] = en.s
+					}
+				}
 				continue
 			}
 			if sc.worst > mcseTarget && !opt.FixedDraws {
-				sc.warnf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", sc.worst, maxDraws, mcseTarget)
+				sc.warnf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (%d for pairs and pulses; target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", sc.worst, maxDraws, min(maxDraws, maxLeadDraws), mcseTarget)
 			}
 			return e.report(ctx, sc, u, prog)
 		}
@@ -797,63 +804,84 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 	return sc, nil
 }
 
-// maxLead is the most pairs and pulses that take every draw.
-const maxLead = mcseTop
+// maxLead is the most pairs and pulses that take more than pairDraws
+// draws; leadStep the factor by which their draws grow at each marking, up
+// to maxLeadDraws. A pair's draw costs 49–81 forward runs against a
+// single's 11: at 384 draws three pairs took 48 comparisons from 5.5 to
+// 7.7 s (BenchmarkExplain48), at 128 to 5.7 s, and the three published
+// cases that ended at the bound (urea on pine, riparian buffer, clear-cut
+// series) then all reach the target.
+const (
+	maxLead      = mcseTop
+	leadStep     = 4
+	maxLeadDraws = 128
+)
 
-// leadPairs marks the pairs and pulses that must take every draw for the
-// leading posteriors to reach their Monte Carlo target once the draws can
-// grow no more, and says whether it marked any. A pair or pulse uses
-// pairDraws draws, so its share of a leading posterior's variance,
-// p_H²·p_k²·relVar_k (p_H²·(1 − p_H)²·relVar_H for the leader itself),
-// does not fall as draws are added. For each of the top mcseTop, while the
-// variance is above target², the pair or pulse with the largest share
-// joins e.lead, which gives it every draw up to DefaultMaxDraws (its share
-// then falls by pairDraws/draws). At most maxLead join, so that their
-// memory stays bounded whatever the draws (a pair at 384 draws keeps about
-// 30 MB of fine-grid predictions for five observables).
+// leadPairs gives more draws to the pairs and pulses that keep the leading
+// posteriors above their Monte Carlo target once the draws can grow no
+// more, and says whether it gave any. A pair or pulse scores on pairDraws
+// draws, so its share of a leading posterior's variance, p_H²·p_k²·relVar_k
+// (p_H²·(1 − p_H)²·relVar_H for the leader itself), does not fall as the
+// draws are added. For each of the top mcseTop, while the variance is above
+// target², the pair or pulse whose share would fall most takes leadStep
+// times its draws (up to every draw and maxLeadDraws), its share
+// projected to fall in proportion. At most maxLead are so chosen, so
+// their memory stays bounded whatever the draws (a pair at 128 draws keeps
+// about 10 MB of fine-grid predictions for five observables); the unit is
+// scored again after each marking (everything else reused), so a pair goes
+// 16 → 64 → 128 draws only while it must.
 func (e *engine) leadPairs(sc *scoring) bool {
 	sorted, joint := sc.sorted, sc.joint
-	most := float64(len(e.draws))
+	most := min(len(e.draws), maxLeadDraws)
 	marked := false
 	for i := range min(mcseTop, len(joint)) {
 		pH := joint[i].Posterior
 		var total float64
-		// share: what marking a pair or pulse would take off the variance.
-		type share struct {
-			id string
-			v  float64
+		// gain: what giving a pair or pulse more draws takes off the
+		// variance, and the draws it would take.
+		type gain struct {
+			id   string
+			v    float64
+			next int
 		}
-		var fixed []share
+		var gains []gain
 		for k, en := range sorted {
 			pk := joint[k].Posterior
 			if k == i {
 				pk = 1 - pH
 			}
 			v := pH * pH * pk * pk * en.s.relVar
-			// What a marked pair or pulse scored on fewer draws than it
-			// will take keeps of its share: nd/draws.
-			keep := float64(en.s.nd) / most
-			switch {
-			case len(en.s.knobs) < 2:
+			if len(en.s.knobs) < 2 {
 				total += v
-			case e.lead[joint[k].ID]:
-				total += v * keep
-			default:
-				total += v
-				fixed = append(fixed, share{joint[k].ID, v * (1 - keep)})
+				continue
+			}
+			nd, id := en.s.nd, joint[k].ID
+			if d := e.lead[id]; d > nd {
+				// Already given more draws than it was scored with.
+				total += v * float64(nd) / float64(d)
+				continue
+			}
+			total += v
+			if next := min(leadStep*nd, most); next > nd {
+				gains = append(gains, gain{id, v * (1 - float64(nd)/float64(next)), next})
 			}
 		}
-		sort.SliceStable(fixed, func(a, b int) bool { return fixed[a].v > fixed[b].v })
-		for _, f := range fixed {
-			if total <= mcseTarget*mcseTarget || len(e.lead) >= maxLead {
+		sort.SliceStable(gains, func(a, b int) bool { return gains[a].v > gains[b].v })
+		for _, g := range gains {
+			if total <= mcseTarget*mcseTarget {
 				break
 			}
-			if e.lead == nil {
-				e.lead = map[string]bool{}
+			// A gain below a quarter of the excess is not worth the
+			// draws (the excess is then mostly another's, already given).
+			if _, ok := e.lead[g.id]; (!ok && len(e.lead) >= maxLead) || g.v < (total-mcseTarget*mcseTarget)/4 {
+				continue
 			}
-			e.lead[f.id] = true
+			if e.lead == nil {
+				e.lead = map[string]int{}
+			}
+			e.lead[g.id] = g.next
 			marked = true
-			total -= f.v
+			total -= g.v
 		}
 	}
 	return marked
