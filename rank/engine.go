@@ -112,6 +112,9 @@ type engine struct {
 	// whose posterior was too small to matter to the Monte Carlo error of
 	// the leading ones; later rounds reuse them instead of adding draws.
 	settled map[string]*scored
+	// prev holds every hypothesis scored in the previous round, reused
+	// where it would take the same draws again.
+	prev map[string]*scored
 	// lead holds the draws given to pairs and pulses whose Monte Carlo
 	// error kept a leading posterior above target (leadPairs), instead of
 	// pairDraws.

@@ -493,6 +493,12 @@ func (e *engine) evaluateOrReuse(w *worker, id string, knobs []*knob, none *scor
 	if s, ok := e.settled[id]; ok {
 		return s
 	}
+	// Scored last round on the draws it would take now (a pair between
+	// doublings, a single once the draws grow past its cap for the
+	// treatment alone): the same inputs give the same score.
+	if s, ok := e.prev[id]; ok && s.nd == e.drawsFor(id, knobs) {
+		return s
+	}
 	return e.evaluate(w, id, knobs, none)
 }
 
@@ -527,14 +533,7 @@ func explainUnit(ctx context.Context, e *engine, stream uint64, u unit, prog *pr
 			// draw, and the unit is scored again, while there are such
 			// (each pair at most once).
 			if sc.worst > mcseTarget && !opt.FixedDraws && e.leadPairs(sc) {
-				// The same draws: every hypothesis but those given more
-				// is reused as scored.
-				for _, en := range sc.sorted {
-					if en.s.nd >= e.lead[en.s.id] {
-						e.settled[en.s.id] = en.s
-					}
-				}
-				continue
+				continue // the same draws: all but those given more reused
 			}
 			if sc.worst > mcseTarget && !opt.FixedDraws {
 				sc.warnf("the Monte Carlo error of a leading posterior is still %.2g after the maximum of %d nuisance draws (%d for pairs and pulses; target %.2g): posteriors that differ by less than about twice that may swap places with another --seed", sc.worst, maxDraws, min(maxDraws, maxLeadDraws), mcseTarget)
@@ -720,9 +719,13 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 	// Hypotheses too improbable to matter to the Monte Carlo error of the
 	// leading posteriors keep these draws in later rounds.
 	e.settled = map[string]*scored{}
+	e.prev = map[string]*scored{}
 	for i, h := range hyps {
 		if i > 0 && h.Posterior < settledPosterior && h.Posterior*math.Sqrt(entries[i].s.relVar) < mcseTarget/4 {
 			e.settled[h.ID] = entries[i].s
+		}
+		if i > 0 {
+			e.prev[h.ID] = entries[i].s
 		}
 	}
 	// Candidates indistinguishable from none are counted with it.
