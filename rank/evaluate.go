@@ -66,15 +66,7 @@ func (s *scored) fineTheta(f int, theta []float64) []float64 {
 // and the departure from none (nil when evaluating none itself).
 func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *scored {
 	s := &scored{id: id, knobs: knobs, nd: e.drawsFor(id, knobs), no: len(e.obs)}
-	s.logw = e.logw
-	if s.nd < len(e.draws) {
-		// The first nd draws, their weights renormalised among themselves.
-		s.logw = make([]float64, s.nd)
-		lz := logSumExp(e.logw[:s.nd])
-		for d := range s.nd {
-			s.logw[d] = e.logw[d] - lz
-		}
-	}
+	s.logw = e.logwFor(s.nd)
 	for _, k := range knobs {
 		s.nc = append(s.nc, len(k.ax.nodes))
 		s.nf = append(s.nf, len(k.ax.fine))
@@ -116,6 +108,20 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 		}
 	}
 	return s
+}
+
+// logwFor returns the log weights of the first nd draws, renormalised
+// among themselves.
+func (e *engine) logwFor(nd int) []float64 {
+	if nd >= len(e.draws) {
+		return e.logw
+	}
+	out := make([]float64, nd)
+	lz := logSumExp(e.logw[:nd])
+	for d := range nd {
+		out[d] = e.logw[d] - lz
+	}
+	return out
 }
 
 // maxDeparture returns, for each observable, the largest departure over

@@ -495,11 +495,28 @@ func (e *engine) evaluateOrReuse(w *worker, id string, knobs []*knob, none *scor
 	}
 	// Scored last round on the draws it would take now (a pair between
 	// doublings, a single once the draws grow past its cap for the
-	// treatment alone): the same inputs give the same score.
-	if s, ok := e.prev[id]; ok && s.nd == e.drawsFor(id, knobs) {
+	// treatment alone) and with the same weights: the same inputs give the
+	// same score. The weights are tempered over all the draws (drawWeights),
+	// so they can change when draws are added even where a hypothesis
+	// takes no more of them.
+	if s, ok := e.prev[id]; ok && s.nd == e.drawsFor(id, knobs) && sameWeights(s.logw, e.logwFor(s.nd)) {
 		return s
 	}
 	return e.evaluate(w, id, knobs, none)
+}
+
+// sameWeights says whether two sets of log weights agree to 1e-12 (the
+// last bits of a renormalisation over a different total may differ).
+func sameWeights(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if math.Abs(a[i]-b[i]) > 1e-12 {
+			return false
+		}
+	}
+	return true
 }
 
 // explainUnit explains a unit with as many draws as its top posteriors
