@@ -1,6 +1,7 @@
 package rules
 
 import (
+	"regexp"
 	"strings"
 	"testing"
 
@@ -189,6 +190,19 @@ func TestRulesFilesStrict(t *testing.T) {
 		_, err := Parse(kb, append(files, File{"x.yaml", []byte(tt.text)})...)
 		if err == nil || !strings.Contains(err.Error(), tt.want) {
 			t.Errorf("%s: got %v\nwant it to contain %q", tt.name, err, tt.want)
+		}
+	}
+}
+
+// A mechanism carries no citation of its own: the reports append the
+// candidate's refs after it, so an inline "(Author Year)" was printed twice
+// ("… predicts (Hobbie & Hobbie 2008) (Hobbie & Hobbie 2008; …)").
+func TestMechanismsCiteThroughRefs(t *testing.T) {
+	t.Parallel()
+	cite := regexp.MustCompile(`\([^()]*\b(1[89]|20)\d\d[a-z]?\)`)
+	for _, c := range defaultSet(t).Candidates {
+		if m := cite.FindString(c.Mechanism); m != "" {
+			t.Errorf("%s: mechanism cites %s inline; list it in refs", c.ID, m)
 		}
 	}
 }
