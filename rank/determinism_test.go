@@ -138,3 +138,49 @@ func TestSeedStabilityDemo(t *testing.T) {
 		}
 	}
 }
+
+// Without a site fit, comparisons of one design share forward predictions
+// but not their draw weights, which come from each control's levels: a
+// comparison's counted-with-none signal is its own, whatever it is
+// explained beside (the departure cache is keyed by the levels too).
+func TestSharedDesignKeepsOwnWeights(t *testing.T) {
+	t.Parallel()
+	kb := knowledge.MustDefault()
+	st, err := study.Load("../testdata/demo/study.yaml", kb, study.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	shifted := st.Comparisons[0]
+	shifted.Name = "shifted controls"
+	shifted.Observed = append([]study.Observed(nil), shifted.Observed...)
+	for k := range shifted.Observed {
+		if shifted.Observed[k].NoLevels() {
+			t.Fatal("the demo's observations have no group levels: the test needs them")
+		}
+		shifted.Observed[k].Control.Mean += 1.5
+		shifted.Observed[k].Treatment.Mean += 1.5
+	}
+	opt := Options{Seed: 3, Draws: 12, FixedDraws: true, Workers: 1, NoSiteFit: true}
+	both := *st
+	both.Comparisons = []study.Comparison{st.Comparisons[0], shifted}
+	alone := *st
+	alone.Comparisons = []study.Comparison{shifted}
+	rb, err := Explain(context.Background(), &both, kb, defaultSet(t), opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ra, err := Explain(context.Background(), &alone, kb, defaultSet(t), opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	signal := func(c ComparisonResult) map[string]float64 {
+		m := map[string]float64{}
+		for _, h := range c.Hypotheses {
+			m[h.ID] = h.MaxSignal
+		}
+		return m
+	}
+	if got, want := signal(rb.Comparisons[1]), signal(ra.Comparisons[0]); !reflect.DeepEqual(got, want) {
+		t.Error("the shifted comparison's signals depend on the comparison explained beside it")
+	}
+}

@@ -108,6 +108,10 @@ type engine struct {
 	// shared by the units of one design (key).
 	pc  *predCache
 	key string
+	// levels writes the control levels that weight the draws (setup):
+	// what a cached quantity depending on the weights is keyed by too,
+	// since without a site fit the design key does not hold them.
+	levels string
 	// settled holds, from the previous round of draws, the hypotheses
 	// whose posterior was too small to matter to the Monte Carlo error of
 	// the leading ones; later rounds reuse them instead of adding draws.

@@ -98,9 +98,10 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 	if none != nil {
 		// The departure from none depends on the design and draws, not on
 		// the observed shifts: computed once for every comparison of it.
-		// Keyed also by none's draws: the weights of the first nd draws,
-		// renormalised, differ in the last bit with the total.
-		dep := e.pc.departure(fmt.Sprintf("%s@%d/%d", id, nd, none.nd), func() []float64 { return s.maxDeparture(none) })
+		// Keyed also by none's draws (the weights of the first nd draws,
+		// renormalised, differ in the last bit with the total) and by the
+		// control levels that weight the draws.
+		dep := e.pc.departure(fmt.Sprintf("%s@%d/%d %s", id, nd, none.nd, e.levels), func() []float64 { return s.maxDeparture(none) })
 		for o, d := range dep {
 			if v := d / e.observed[o].SE; !math.IsNaN(v) {
 				s.signal = math.Max(s.signal, v)

@@ -325,15 +325,18 @@ func prepareEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, 
 	}
 	nominal, fit := st.Site, (*SiteFit)(nil)
 	var fitWarn []string
-	var targets []FitTarget
-	if !opt.NoSiteFit {
-		for _, c := range cmps {
-			for _, o := range c.Observed {
-				if !o.NoLevels() {
-					targets = append(targets, FitTarget{Observable: o.Observable, Mean: o.Control.Mean, SE: o.Control.SE()})
-				}
+	// The control levels: the fit targets, and what weights the draws.
+	var levels []FitTarget
+	for _, c := range cmps {
+		for _, o := range c.Observed {
+			if !o.NoLevels() {
+				levels = append(levels, FitTarget{Observable: o.Observable, Mean: o.Control.Mean, SE: o.Control.SE()})
 			}
 		}
+	}
+	var targets []FitTarget
+	if !opt.NoSiteFit {
+		targets = levels
 		if len(targets) > 0 {
 			f, err := sh.fit(st.Site, targets)
 			switch {
@@ -367,6 +370,7 @@ func prepareEngine(st *study.Study, u unit, kb *knowledge.Base, set *rules.Set, 
 		e.treated = e.treated || !trs[k].Empty(kb)
 	}
 	e.key = designKey(targets, e.parts)
+	e.levels = targetsKey(levels)
 	return e, nil
 }
 
