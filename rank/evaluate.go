@@ -31,8 +31,10 @@ type scored struct {
 	// with weight 1 when the site is certain).
 	logw []float64
 	logZ float64 // log evidence
-	// signal is the largest departure of the draw-averaged predictions from
-	// none's, over fine points and observables, in observed standard errors.
+	// dep is the departure of the predictions from none's at each fine
+	// point (departure; shared, read only); signal its largest size over
+	// fine points and observables, in observed standard errors.
+	dep    []float64
 	signal float64
 	// relVar is the relative Monte Carlo variance of the evidence over the
 	// nuisance draws: Var(Ẑ)/Z² = Σ_d (q_d − w_d)², with q_d the posterior
@@ -101,9 +103,9 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 		// Keyed also by none's draws (the weights of the first nd draws,
 		// renormalised, differ in the last bit with the total) and by the
 		// control levels that weight the draws.
-		dep := e.pc.departure(fmt.Sprintf("%s@%d/%d %s", id, nd, none.nd, e.levels), func() []float64 { return s.maxDeparture(none) })
-		for o, d := range dep {
-			if v := d / e.observed[o].SE; !math.IsNaN(v) {
+		s.dep = e.pc.departure(fmt.Sprintf("%s@%d/%d %s", id, nd, none.nd, e.levels), func() []float64 { return s.departure(none) })
+		for i, d := range s.dep {
+			if v := math.Abs(d) / e.observed[i%no].SE; !math.IsNaN(v) {
 				s.signal = math.Max(s.signal, v)
 			}
 		}
@@ -125,29 +127,29 @@ func (e *engine) logwFor(nd int) []float64 {
 	return out
 }
 
-// maxDeparture returns, for each observable, the largest departure over
-// the fine points of the draw-averaged predictions from none's (draw by
-// draw, then averaged with the draw weights).
-func (s *scored) maxDeparture(none *scored) []float64 {
-	nF, nd, no := s.fineCount(), s.nd, s.no
-	w := make([]float64, nd)
+// weights returns the draw weights of the hypothesis (exp of logw).
+func (s *scored) weights() []float64 {
+	w := make([]float64, len(s.logw))
 	for d, lw := range s.logw {
 		w[d] = math.Exp(lw)
 	}
-	out := make([]float64, no)
-	mean := make([]float64, no)
+	return w
+}
+
+// departure returns, at every fine point f and observable o
+// (dep[f·no + o]), the departure of the predictions from none's, draw by
+// draw, averaged with the draw weights.
+func (s *scored) departure(none *scored) []float64 {
+	nF, nd, no := s.fineCount(), s.nd, s.no
+	w := s.weights()
+	out := make([]float64, nF*no)
 	for f := range nF {
-		clear(mean)
+		mean := out[f*no : (f+1)*no]
 		for d := range nd {
 			p := s.pred[(f*nd+d)*no:][:no]
 			p0 := none.pred[min(d, none.nd-1)*no:][:no]
 			for o, v := range p {
 				mean[o] += w[d] * (v - p0[o])
-			}
-		}
-		for o, m := range mean {
-			if a := math.Abs(m); a > out[o] {
-				out[o] = a
 			}
 		}
 	}
@@ -359,10 +361,7 @@ func (s *scored) likelihood(e *engine) {
 		halfInv[o] = 0.5 / e.variance[o]
 	}
 	shift := e.shift[:no]
-	w := make([]float64, nd)
-	for d, lw := range s.logw {
-		w[d] = math.Exp(lw)
-	}
+	w := s.weights()
 	for f := range nF {
 		for d := range nd {
 			var ll float64

@@ -33,26 +33,13 @@ type screenCurve struct {
 	n   int
 }
 
-// departures returns the draw-averaged departure of a one-knob single's
-// predictions from none's at every screenStride-th fine point.
-func (s *scored) departures(none *scored) ([]float64, int) {
-	nF, nd, no := s.fineCount(), s.nd, s.no
-	w := make([]float64, nd)
-	for d, lw := range s.logw {
-		w[d] = math.Exp(lw)
-	}
+// screenPoints returns every screenStride-th fine point of a one-knob
+// single's departure from none (scored.dep), and their number.
+func (s *scored) screenPoints() ([]float64, int) {
 	var dep []float64
 	n := 0
-	for f := screenStride / 2; f < nF; f += screenStride {
-		row := make([]float64, no)
-		for d := range nd {
-			p := s.pred[(f*nd+d)*no:][:no]
-			p0 := none.pred[min(d, none.nd-1)*no:][:no]
-			for o := range no {
-				row[o] += w[d] * (p[o] - p0[o])
-			}
-		}
-		dep = append(dep, row...)
+	for f := screenStride / 2; f < s.fineCount(); f += screenStride {
+		dep = append(dep, s.dep[f*s.no:(f+1)*s.no]...)
 		n++
 	}
 	return dep, n
@@ -69,10 +56,7 @@ func (e *engine) screenJoint(pool []entry, none *scored, ok func(a, b entry) boo
 	}
 	// The residual against none's weighted mean prediction; none's spread
 	// over the nuisance draws widens every observable's variance.
-	w := make([]float64, none.nd)
-	for d, lw := range none.logw {
-		w[d] = math.Exp(lw)
-	}
+	w := none.weights()
 	r := make([]float64, no)
 	v := make([]float64, no)
 	for o := range no {
@@ -87,10 +71,10 @@ func (e *engine) screenJoint(pool []entry, none *scored, ok func(a, b entry) boo
 	}
 	var curves []screenCurve
 	for _, en := range pool {
-		if len(en.s.knobs) != 1 || en.s.fineCount() < screenStride {
+		if len(en.s.knobs) != 1 || en.s.fineCount() < screenStride || en.s.dep == nil {
 			continue
 		}
-		dep, n := en.s.departures(none)
+		dep, n := en.s.screenPoints()
 		curves = append(curves, screenCurve{en: en, dep: dep, n: n})
 	}
 	// Each single alone, on the same approximation.
