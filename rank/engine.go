@@ -112,13 +112,12 @@ type engine struct {
 	// what a cached quantity depending on the weights is keyed by too,
 	// since without a site fit the design key does not hold them.
 	levels string
-	// settled holds, from the previous round of draws, the hypotheses
-	// whose posterior was too small to matter to the Monte Carlo error of
-	// the leading ones; later rounds reuse them instead of adding draws.
-	settled map[string]*scored
 	// prev holds every hypothesis scored in the previous round, reused
-	// where it would take the same draws again.
-	prev map[string]*scored
+	// where it would take the same draws again; settled names those whose
+	// posterior was too small to matter to the Monte Carlo error of the
+	// leading ones: later rounds reuse them instead of adding draws.
+	prev    map[string]*scored
+	settled map[string]bool
 	// lead holds the draws given to pairs and pulses whose Monte Carlo
 	// error kept a leading posterior above target (leadPairs), instead of
 	// pairDraws.

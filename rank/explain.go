@@ -494,16 +494,13 @@ const (
 // evaluateOrReuse scores a hypothesis, or returns its score from an earlier
 // round of draws if that round found it settled.
 func (e *engine) evaluateOrReuse(w *worker, id string, knobs []*knob, none *scored) *scored {
-	if s, ok := e.settled[id]; ok {
-		return s
-	}
-	// Scored last round on the draws it would take now (a pair between
-	// doublings, a single once the draws grow past its cap for the
+	// Settled, or scored last round on the draws it would take now (a pair
+	// between doublings, a single once the draws grow past its cap for the
 	// treatment alone) and with the same weights: the same inputs give the
 	// same score. The weights are tempered over all the draws (drawWeights),
 	// so they can change when draws are added even where a hypothesis
 	// takes no more of them.
-	if s, ok := e.prev[id]; ok && s.nd == e.drawsFor(id, knobs) && sameWeights(s.logw, e.logwFor(s.nd)) {
+	if s, ok := e.prev[id]; ok && (e.settled[id] || s.nd == e.drawsFor(id, knobs) && sameWeights(s.logw, e.logwFor(s.nd))) {
 		return s
 	}
 	return e.evaluate(w, id, knobs, none)
@@ -739,15 +736,11 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 	}
 	// Hypotheses too improbable to matter to the Monte Carlo error of the
 	// leading posteriors keep these draws in later rounds.
-	e.settled = map[string]*scored{}
+	e.settled = map[string]bool{}
 	e.prev = map[string]*scored{}
-	for i, h := range hyps {
-		if i > 0 && h.Posterior < settledPosterior && h.Posterior*math.Sqrt(entries[i].s.relVar) < mcseTarget/4 {
-			e.settled[h.ID] = entries[i].s
-		}
-		if i > 0 {
-			e.prev[h.ID] = entries[i].s
-		}
+	for i, h := range hyps[1:] {
+		e.prev[h.ID] = entries[i+1].s
+		e.settled[h.ID] = h.Posterior < settledPosterior && h.Posterior*math.Sqrt(entries[i+1].s.relVar) < mcseTarget/4
 	}
 	// Candidates indistinguishable from none are counted with it.
 	var quiet []string
