@@ -130,17 +130,9 @@ func TreatmentChange(s *Site, kb *knowledge.Base, t Treatment, size SizeFunc) (C
 			}
 			continue
 		}
-		moves, rates := m.Moves, m.Rates
-		if len(m.Severity) > 0 {
-			sev := t.Severity
-			if sev == "" {
-				sev = "moderate"
-			}
-			e, ok := m.Severity[sev]
-			if !ok {
-				return c, fmt.Errorf("unknown severity %q for %s", sev, tag)
-			}
-			moves, rates = e.Moves, e.Rates
+		moves, rates, ok := m.Effect(t.Severity)
+		if !ok {
+			return c, fmt.Errorf("unknown severity %q for %s", t.Severity, tag)
 		}
 		var mv []Move
 		for k, f := range moves {

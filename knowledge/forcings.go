@@ -40,6 +40,24 @@ type Management struct {
 	Line     int                       `yaml:"-" json:"-"`
 }
 
+// DefaultSeverity is the severity whose sizes stand for a management with
+// severities when a study gives none (the draws then cover every severity).
+const DefaultSeverity = "moderate"
+
+// Effect returns what m does at severity sev (DefaultSeverity for ""):
+// its moves and rate changes, and false for a severity m does not know.
+// A management without severities does the same at any.
+func (m Management) Effect(sev string) ([]MoveForcing, []RateForcing, bool) {
+	if len(m.Severity) == 0 {
+		return m.Moves, m.Rates, true
+	}
+	if sev == "" {
+		sev = DefaultSeverity
+	}
+	e, ok := m.Severity[sev]
+	return e.Moves, e.Rates, ok
+}
+
 // SeverityEffect is what a management does at one severity.
 type SeverityEffect struct {
 	Moves []MoveForcing `yaml:"moves" json:"moves,omitempty"`

@@ -1187,6 +1187,10 @@ func (e *engine) pairJobs(entries []entry, none *scored) [][2]entry {
 	return jobs
 }
 
+// SeverityNotGiven says what a management with severities does when the
+// study gives none (rank/draws.go draws the severity).
+const SeverityNotGiven = "severity not given: drawn over low, moderate and high (typical values below are " + knowledge.DefaultSeverity + ")"
+
 // describeTreatment records what the treatment applies at typical sizes.
 func describeTreatment(kb *knowledge.Base, site *forward.Site, tr forward.Treatment) Treatment {
 	out := Treatment{Severity: tr.Severity}
@@ -1205,14 +1209,9 @@ func describeTreatment(kb *knowledge.Base, site *forward.Site, tr forward.Treatm
 			continue
 		}
 		am := AppliedManagement{Tag: tag, Label: m.Label, Refs: m.Refs}
-		moves, rates := m.Moves, m.Rates
-		if len(m.Severity) > 0 {
-			sev := tr.Severity
-			if sev == "" {
-				sev = "moderate"
-				am.Actions = append(am.Actions, "severity not given: drawn over low, moderate and high (typical values below are moderate)")
-			}
-			moves, rates = m.Severity[sev].Moves, m.Severity[sev].Rates
+		moves, rates, _ := m.Effect(tr.Severity)
+		if len(m.Severity) > 0 && tr.Severity == "" {
+			am.Actions = append(am.Actions, SeverityNotGiven)
 		}
 		pct := func(s knowledge.Size) string {
 			return fmt.Sprintf("%.0f %% (%.0f–%.0f %%)", 100*s.Typical, 100*s.Range[0], 100*s.Range[1])

@@ -8,6 +8,7 @@ import (
 
 	"nlens/forward"
 	"nlens/knowledge"
+	"nlens/rank"
 	"nlens/rank/study"
 )
 
@@ -87,16 +88,14 @@ func appliedTreatment(st *study.Study, c *study.Comparison, kb *knowledge.Base) 
 			out = append(out, fmt.Sprintf("management %q: context for the priors only (no forcing)", tag))
 			continue
 		}
-		moves, rates := m.Moves, m.Rates
+		moves, rates, _ := m.Effect(c.Severity)
 		label := m.Label
-		if e, ok := m.Severity[c.Severity]; ok {
-			moves, rates = e.Moves, e.Rates
+		switch {
+		case len(m.Severity) == 0:
+		case c.Severity != "":
 			label += ", " + c.Severity + " severity"
-		} else if len(m.Severity) > 0 {
-			sev := "moderate"
-			e := m.Severity[sev]
-			moves, rates = e.Moves, e.Rates
-			label += ", severity not given: moderate assumed"
+		default:
+			label += ", " + rank.SeverityNotGiven
 		}
 		out = append(out, fmt.Sprintf("applied in every hypothesis: %s (%s)", label, tag))
 		for _, mv := range moves {

@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"nlens/rank"
 	"nlens/rank/study"
 )
 
@@ -48,5 +49,33 @@ comparisons:
 	}
 	if strings.Contains(out, "0.00") {
 		t.Errorf("a shift from a paper printed invented group levels:\n%s", out)
+	}
+}
+
+// Without a stated severity, `nlens check` says what the engine does (the
+// draws cover low, moderate and high; rank/draws.go) in the same words as
+// the result's treatment record, not that moderate is assumed.
+func TestCheckSeverityNotGiven(t *testing.T) {
+	kb := testKB(t)
+	const text = `
+title: check test
+site: {template: temperate-conifer-forest}
+comparisons:
+  - name: wildfire vs unburned
+    years: 2
+    management: [burned]
+    shifts: {foliage: {shift: 2.9, se: 0.6}}
+`
+	st, err := study.Parse("study.yaml", []byte(text), kb, study.Options{}, os.ReadFile)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := Observed(&buf, st, kb); err != nil {
+		t.Fatal(err)
+	}
+	flat := strings.Join(strings.Fields(buf.String()), " ")
+	if !strings.Contains(flat, "fire, "+rank.SeverityNotGiven) || strings.Contains(flat, "assumed") {
+		t.Errorf("check output:\n%s", buf.String())
 	}
 }
