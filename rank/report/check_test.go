@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"nlens/knowledge"
 	"nlens/rank"
 	"nlens/rank/study"
 )
@@ -27,15 +28,7 @@ comparisons:
     severity: high
     shifts: {foliage: {shift: 2.9, se: 0.6}}
 `
-	st, err := study.Parse("study.yaml", []byte(text), kb, study.Options{}, os.ReadFile)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var buf bytes.Buffer
-	if err := Observed(&buf, st, kb); err != nil {
-		t.Fatal(err)
-	}
-	out := buf.String()
+	out := checkOutput(t, kb, text)
 	m, _ := kb.Management("burned")
 	want := []string{"applied in every hypothesis: fire, high severity (burned)", "no site fit", `management "thinned": context for the priors only`}
 	for _, mv := range m.Severity["high"].Moves {
@@ -66,6 +59,16 @@ comparisons:
     management: [burned]
     shifts: {foliage: {shift: 2.9, se: 0.6}}
 `
+	out := checkOutput(t, kb, text)
+	flat := strings.Join(strings.Fields(out), " ")
+	if !strings.Contains(flat, "fire, "+rank.SeverityNotGiven) || strings.Contains(flat, "assumed") {
+		t.Errorf("check output:\n%s", out)
+	}
+}
+
+// checkOutput is what `nlens check` writes for a study text.
+func checkOutput(t *testing.T, kb *knowledge.Base, text string) string {
+	t.Helper()
 	st, err := study.Parse("study.yaml", []byte(text), kb, study.Options{}, os.ReadFile)
 	if err != nil {
 		t.Fatal(err)
@@ -74,8 +77,5 @@ comparisons:
 	if err := Observed(&buf, st, kb); err != nil {
 		t.Fatal(err)
 	}
-	flat := strings.Join(strings.Fields(buf.String()), " ")
-	if !strings.Contains(flat, "fire, "+rank.SeverityNotGiven) || strings.Contains(flat, "assumed") {
-		t.Errorf("check output:\n%s", buf.String())
-	}
+	return buf.String()
 }
