@@ -118,7 +118,7 @@ func (d *drafter) openQuestions(c rank.ComparisonResult) string {
 	if !c.NoFit && len(hs) > 1 {
 		var good, poor []rank.Hypothesis
 		for _, h := range hs[1:] {
-			if fitOf(h.Fit.P) == fitAdequate {
+			if h.Fit.P >= poorFitP {
 				good = append(good, h)
 			} else {
 				poor = append(poor, h)

@@ -149,7 +149,6 @@ func noFitStatements(r *rank.Result) []string {
 // summaryUnit is what one paragraph of a summary covers: a comparison on
 // its own, or the comparisons of a series with their joint ranking.
 type summaryUnit struct {
-	index       int
 	comparisons []rank.ComparisonResult
 	// ranked carries the ranking: the comparison itself, or the series'
 	// joint hypotheses and measurements.
@@ -164,14 +163,14 @@ func summaryUnits(r *rank.Result) []summaryUnit {
 	done := map[string]bool{}
 	for _, c := range r.Comparisons {
 		if c.Series == "" {
-			out = append(out, summaryUnit{index: len(out), comparisons: []rank.ComparisonResult{c}, ranked: c})
+			out = append(out, summaryUnit{comparisons: []rank.ComparisonResult{c}, ranked: c})
 			continue
 		}
 		if done[c.Series] {
 			continue
 		}
 		done[c.Series] = true
-		u := summaryUnit{index: len(out), series: c.Series, ranked: c}
+		u := summaryUnit{series: c.Series, ranked: c}
 		for _, cc := range r.Comparisons {
 			if cc.Series == c.Series {
 				u.comparisons = append(u.comparisons, cc)

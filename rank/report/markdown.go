@@ -159,7 +159,6 @@ func rankingSection(b *strings.Builder, c rank.ComparisonResult, kb *knowledge.B
 	var rows [][]string
 	b.WriteString("### Explanations\n\n")
 	b.WriteString("Posterior: probability of each explanation given the data and the priors (all candidates sum to 1). Magnitude: posterior median with its 90 % credible interval (≤ or ≥ where it reaches the prior's bound), “was” the site's baseline, and the change of that flux at sampling (for a pulse, while it lasts). Fit p: the probability of a fit at least this poor if the explanation were right (posterior-predictive check); below 0.01 the explanation does not reproduce the data. “with #k”: its predictions stay within noise of explanation #k, so its probability is counted there.\n\n")
-	rows = rows[:0]
 	for i, h := range c.Hypotheses {
 		if i >= opt.MaxHypotheses {
 			break

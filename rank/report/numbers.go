@@ -13,20 +13,13 @@ import (
 
 // decimalsFor shows small numbers with enough digits.
 func decimalsFor(v float64) int {
-	switch a := abs(v); {
+	switch a := math.Abs(v); {
 	case a == 0 || a >= 1:
 		return 3
 	case a >= 0.01:
 		return 4
 	}
 	return 7
-}
-
-func abs(v float64) float64 {
-	if v < 0 {
-		return -v
-	}
-	return v
 }
 
 // pValue is "p = 0.27" or "p < 0.001".

@@ -80,33 +80,10 @@ func shiftStrength(shift, se float64) strength {
 	return clearShift
 }
 
-// The fit rule, by the posterior-predictive p of an explanation: below
-// noFitP it fails (the engine's own no-fit threshold, DESIGN §5), below
-// poorFitP it reproduces the data poorly (the usual 5 % level, common
-// practice), otherwise adequately.
-const (
-	noFitP   = 0.01
-	poorFitP = 0.05
-)
-
-// fitQuality is how well an explanation reproduces the observed shifts.
-type fitQuality int
-
-const (
-	fitFails fitQuality = iota
-	fitPoor
-	fitAdequate
-)
-
-func fitOf(p float64) fitQuality {
-	switch {
-	case p < noFitP:
-		return fitFails
-	case p < poorFitP:
-		return fitPoor
-	}
-	return fitAdequate
-}
+// poorFitP: an explanation whose posterior-predictive p is below it
+// reproduces the data poorly (the usual 5 % level, common practice); below
+// the engine's 0.01 it fails (DESIGN §5, reported by the engine as NoFit).
+const poorFitP = 0.05
 
 // notable is the posterior below which an explanation is not worth naming
 // in prose (it stays in the tables and the JSON).
