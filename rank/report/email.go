@@ -307,8 +307,8 @@ func anyStandsOut(obs []study.Observed) bool {
 // nextSentence recommends the measurement that would best separate the
 // leading explanations, with what each predicts.
 func nextSentence(c rank.ComparisonResult, n namer, predictions, report bool) string {
-	if len(c.Measurements) == 0 || c.Measurements[0].Bits < minUsefulBits {
-		return "No measurement in the nlens catalogue would separate these explanations much; more replicates of what was already measured may help more."
+	if !worthMeasuring(c) {
+		return noUsefulMeasurement
 	}
 	m := c.Measurements[0]
 	lead, verb := "To tell them apart", "I would measure %s next (%s cost)"
@@ -333,7 +333,7 @@ func nextSentence(c rank.ComparisonResult, n namer, predictions, report bool) st
 
 // glosses remembers which terms have been explained already.
 type glosses struct {
-	posterior, bits bool
+	posterior bool
 	// report writes for a report rather than a reply: no first person.
 	report bool
 }
@@ -344,14 +344,6 @@ func (g *glosses) posteriorGloss() string {
 	}
 	g.posterior = true
 	return " (all candidates sum to 1)"
-}
-
-func (g *glosses) bitsGloss() string {
-	if g.bits {
-		return ""
-	}
-	g.bits = true
-	return " (expected information gain; 1 bit would settle an even two-way choice)"
 }
 
 // predictedRange is the lowest and highest predicted mean of an observable
@@ -379,6 +371,14 @@ func predictedRange(obs string, hs []rank.Hypothesis) (lo, hi float64) {
 // moves any posterior).
 const minUsefulBits = 0.05
 
+// noUsefulMeasurement is said when no measurement reaches minUsefulBits.
+const noUsefulMeasurement = "No measurement in the nlens catalogue would separate these explanations much; more replicates of what was already measured may help more."
+
+// worthMeasuring says whether the best measurement reaches minUsefulBits.
+func worthMeasuring(c rank.ComparisonResult) bool {
+	return len(c.Measurements) > 0 && c.Measurements[0].Bits >= minUsefulBits
+}
+
 // namedIDs are the ids of the hypotheses named in prose, in rank order.
 func namedIDs(c rank.ComparisonResult) []string {
 	var ids []string
@@ -386,45 +386,6 @@ func namedIDs(c rank.ComparisonResult) []string {
 		ids = append(ids, h.ID)
 	}
 	return ids
-}
-
-// nextParagraph recommends one or two measurements and says why.
-// lead opens the recommendation ("What I would measure next: ").
-func nextParagraph(c rank.ComparisonResult, n namer, g *glosses, full bool, lead string) string {
-	if (len(c.Measurements) == 0 || c.Measurements[0].Bits < minUsefulBits) && c.NoFit {
-		return ""
-	}
-	if len(c.Measurements) == 0 || c.Measurements[0].Bits < minUsefulBits {
-		return "No measurement in the nlens catalogue would separate these explanations much; more replicates of what was already measured may help more."
-	}
-	ids := namedIDs(c)
-	m := c.Measurements[0]
-	var b strings.Builder
-	fmt.Fprintf(&b, "%s%s (%s cost). ", lead, m.Label, costName(m.Cost))
-	if a, bb, z := separation(m, ids); a != "" && z > 0 {
-		ha, _ := hypothesisByID(c, a)
-		hb, _ := hypothesisByID(c, bb)
-		fmt.Fprintf(&b, "%s, expect %s; %s, %s. ",
-			capitalize(n.ifClause(ha, true)), expectation(m, m.Predicted[a]), n.ifClause(hb, false), expectation(m, m.Predicted[bb]))
-	}
-	fmt.Fprintf(&b, "On average it should give %s about which explanation holds%s.", bits(m.Bits), g.bitsGloss())
-	if len(c.Measurements) > 1 && full {
-		m2 := c.Measurements[1]
-		if m2.Bits >= minUsefulBits {
-			kind := "A second option is"
-			if m2.Cost < m.Cost {
-				kind = "A cheaper second option is"
-			}
-			fmt.Fprintf(&b, " %s %s (%s cost, %s)", kind, m2.Label, costName(m2.Cost), bits(m2.Bits))
-			if a, bb, z := separation(m2, ids); a != "" && z >= 1 {
-				ha, _ := hypothesisByID(c, a)
-				hb, _ := hypothesisByID(c, bb)
-				fmt.Fprintf(&b, ", which mainly separates %s from %s", n.short(ha), n.short(hb))
-			}
-			b.WriteString(".")
-		}
-	}
-	return b.String()
 }
 
 // ifClause is "if nitrification is behind the shift" (full) or "if

@@ -270,11 +270,43 @@ func markdownWarnings(b *strings.Builder, warnings []string) {
 	}
 }
 
-// whyMeasure is the e-mail's recommendation paragraph without its
-// glosses (the Markdown explains bits above the table).
+// whyMeasure recommends one or two measurements and says why (bits are
+// explained above the table).
 func whyMeasure(c rank.ComparisonResult, n namer) string {
-	g := glosses{bits: true, posterior: true}
-	return nextParagraph(c, n, &g, true, "Recommended next: ")
+	if !worthMeasuring(c) {
+		if c.NoFit {
+			return ""
+		}
+		return noUsefulMeasurement
+	}
+	ids := namedIDs(c)
+	m := c.Measurements[0]
+	var b strings.Builder
+	fmt.Fprintf(&b, "Recommended next: %s (%s cost). ", m.Label, costName(m.Cost))
+	if a, bb, z := separation(m, ids); a != "" && z > 0 {
+		ha, _ := hypothesisByID(c, a)
+		hb, _ := hypothesisByID(c, bb)
+		fmt.Fprintf(&b, "%s, expect %s; %s, %s. ",
+			capitalize(n.ifClause(ha, true)), expectation(m, m.Predicted[a]), n.ifClause(hb, false), expectation(m, m.Predicted[bb]))
+	}
+	fmt.Fprintf(&b, "On average it should give %s about which explanation holds.", bits(m.Bits))
+	if len(c.Measurements) > 1 {
+		m2 := c.Measurements[1]
+		if m2.Bits >= minUsefulBits {
+			kind := "A second option is"
+			if m2.Cost < m.Cost {
+				kind = "A cheaper second option is"
+			}
+			fmt.Fprintf(&b, " %s %s (%s cost, %s)", kind, m2.Label, costName(m2.Cost), bits(m2.Bits))
+			if a, bb, z := separation(m2, ids); a != "" && z >= 1 {
+				ha, _ := hypothesisByID(c, a)
+				hb, _ := hypothesisByID(c, bb)
+				fmt.Fprintf(&b, ", which mainly separates %s from %s", n.short(ha), n.short(hb))
+			}
+			b.WriteString(".")
+		}
+	}
+	return b.String()
 }
 
 // writeTable writes a Markdown table followed by a blank line.
