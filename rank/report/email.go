@@ -52,9 +52,10 @@ func emailParagraphs(r *rank.Result, kb *knowledge.Base) []string {
 	if len(units) == 1 && units[0].series == "" {
 		limit = emailMaxOne
 	}
+	noFit := unitsNoFit(units)
 	compose := func(level detail, keep int) []string {
 		paras := []string{"Hi,"}
-		paras = append(paras, noFitStatements(r)...)
+		paras = append(paras, noFit...)
 		paras = append(paras, emailOpening(r))
 		g := glosses{}
 		for _, u := range units[:keep] {
@@ -137,8 +138,13 @@ func numberWord(n int) string {
 
 // noFitStatements say, before anything else, where no candidate fits.
 func noFitStatements(r *rank.Result) []string {
+	return unitsNoFit(summaryUnits(r))
+}
+
+// unitsNoFit is noFitStatements for units already formed.
+func unitsNoFit(units []summaryUnit) []string {
 	var out []string
-	for _, u := range summaryUnits(r) {
+	for _, u := range units {
 		if s := u.noFitStatement(); s != "" {
 			out = append(out, s)
 		}

@@ -71,12 +71,13 @@ func markdownBody(r *rank.Result, kb *knowledge.Base, ci citer, opt MarkdownOpti
 	fmt.Fprintf(&b, "# %s\n\n", mdEscape(plain(title)))
 	fmt.Fprintf(&b, "*Draft report written by nlens %s from the study file; check every statement before sending it on.*\n\n", mdEscape(r.Version))
 
-	for _, s := range noFitStatements(r) {
+	units := summaryUnits(r)
+	for _, s := range unitsNoFit(units) {
 		fmt.Fprintf(&b, "**%s**\n\n", mdEscape(s))
 	}
 	b.WriteString("## Summary\n\n")
 	g := glosses{report: true}
-	for _, u := range summaryUnits(r) {
+	for _, u := range units {
 		fmt.Fprintf(&b, "%s\n\n", mdEscape(u.paragraph(kb, &g, fullDetail)))
 	}
 
