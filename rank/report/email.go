@@ -324,7 +324,7 @@ func nextSentence(c rank.ComparisonResult, n namer, predictions, report bool) st
 	if report {
 		verb = "the most useful next measurement is %s (%s cost)"
 	}
-	s := lead + ", " + fmt.Sprintf(verb, m.Label, costName(m.Cost))
+	s := lead + ", " + fmt.Sprintf(verb, m.Label, knowledge.CostLabel(m.Cost))
 	if c.MeasurementsAt != "" {
 		// a series: scored at the comparison where it tells most
 		s += " in the samples of " + quoteName(c.MeasurementsAt)

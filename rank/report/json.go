@@ -6,6 +6,7 @@ import (
 	"math"
 	"strconv"
 
+	"nlens/knowledge"
 	"nlens/rank"
 )
 
@@ -243,7 +244,7 @@ func hypothesisJSON(h rank.Hypothesis) HypothesisJSON {
 func measurementsJSON(ms []rank.Measurement) []MeasurementJSON {
 	out := []MeasurementJSON{}
 	for _, m := range ms {
-		mj := MeasurementJSON{ID: m.ID, Label: m.Label, Bits: round6(m.Bits), Cost: costName(m.Cost), Method: m.Method, Predicted: map[string]MomentsJSON{}}
+		mj := MeasurementJSON{ID: m.ID, Label: m.Label, Bits: round6(m.Bits), Cost: knowledge.CostLabel(m.Cost), Method: m.Method, Predicted: map[string]MomentsJSON{}}
 		for k, p := range m.Predicted {
 			mj.Predicted[k] = MomentsJSON{round6(p.Mean), round6(p.SD)}
 		}
@@ -293,10 +294,6 @@ func treatmentJSON(t rank.Treatment) TreatmentJSON {
 		out.Management = append(out.Management, ManagementJSON{Tag: m.Tag, Label: m.Label, Actions: m.Actions})
 	}
 	return out
-}
-
-func costName(tier int) string {
-	return map[int]string{1: "low", 2: "moderate", 3: "high"}[tier]
 }
 
 // JSON writes the result as indented JSON.

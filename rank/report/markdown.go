@@ -227,7 +227,7 @@ func rankingSection(b *strings.Builder, c rank.ComparisonResult, kb *knowledge.B
 					method += " " + c
 				}
 			}
-			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, "`" + m.ID + "`", fixed(m.Bits, 2), costName(m.Cost), method})
+			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, "`" + m.ID + "`", fixed(m.Bits, 2), knowledge.CostLabel(m.Cost), method})
 		}
 		writeTable(b, []string{"#", "measurement", "id", "bits", "cost", "method"}, "rllrll", rows)
 		if len(lead) > 0 {
@@ -283,7 +283,7 @@ func whyMeasure(c rank.ComparisonResult, n namer) string {
 	ids := namedIDs(c)
 	m := c.Measurements[0]
 	var b strings.Builder
-	fmt.Fprintf(&b, "Recommended next: %s (%s cost). ", m.Label, costName(m.Cost))
+	fmt.Fprintf(&b, "Recommended next: %s (%s cost). ", m.Label, knowledge.CostLabel(m.Cost))
 	if a, bb, z := separation(m, ids); a != "" && z > 0 {
 		ha, _ := hypothesisByID(c, a)
 		hb, _ := hypothesisByID(c, bb)
@@ -298,7 +298,7 @@ func whyMeasure(c rank.ComparisonResult, n namer) string {
 			if m2.Cost < m.Cost {
 				kind = "A cheaper second option is"
 			}
-			fmt.Fprintf(&b, " %s %s (%s cost, %s)", kind, m2.Label, costName(m2.Cost), bits(m2.Bits))
+			fmt.Fprintf(&b, " %s %s (%s cost, %s)", kind, m2.Label, knowledge.CostLabel(m2.Cost), bits(m2.Bits))
 			if a, bb, z := separation(m2, ids); a != "" && z >= 1 {
 				ha, _ := hypothesisByID(c, a)
 				hb, _ := hypothesisByID(c, bb)

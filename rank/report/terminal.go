@@ -110,7 +110,7 @@ func rankingTables(ew *errWriter, c rank.ComparisonResult, opt ExplainOptions) e
 			if i >= opt.MaxMeasurements {
 				break
 			}
-			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, fixed(m.Bits, 2), costName(m.Cost), m.Method})
+			rows = append(rows, []string{strconv.Itoa(i + 1), m.Label, fixed(m.Bits, 2), knowledge.CostLabel(m.Cost), m.Method})
 		}
 		if err := wrappedTable(ew, []string{"#", "measurement", "bits", "cost", "method"}, "rlrll", rows, []int{0, 22, 0, 0, 30}); err != nil {
 			return err
