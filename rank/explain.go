@@ -762,7 +762,7 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 			return plural
 		}
 		sc.warnf("the data cannot speak to %s: %s: %s keep the observed quantities within their standard errors of what %s predicts over %s whole prior range, so %s counted with it",
-			pick("one response", fmt.Sprintf("%d responses", len(quiet))), joinAnd(quiet), pick("it would", "they would"), hyps[0].Label, pick("its", "their"), pick("it is", "they are"))
+			pick("one response", fmt.Sprintf("%d responses", len(quiet))), JoinAnd(quiet), pick("it would", "they would"), hyps[0].Label, pick("its", "their"), pick("it is", "they are"))
 	}
 	// Monte Carlo error of each posterior: dlog p_H = (1 − p_H)·dlog Z_H −
 	// Σ_{k≠H} p_k·dlog Z_k, with the relative variances of the evidences
@@ -925,7 +925,7 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 		}
 	}
 	shiftsNote := func(names []string) string {
-		return fmt.Sprintf("the shifts of %s came from a paper without group levels: the model's baseline could not be compared with a control, so the nuisance draws are unweighted", joinAnd(names))
+		return fmt.Sprintf("the shifts of %s came from a paper without group levels: the model's baseline could not be compared with a control, so the nuisance draws are unweighted", JoinAnd(names))
 	}
 	all := slices.Clone(warnings)
 	for pi := range e.parts {
@@ -1255,8 +1255,8 @@ func uniq(s []string) []string {
 	return out
 }
 
-// joinAnd joins items as "a, b and c".
-func joinAnd(items []string) string {
+// JoinAnd joins items as prose: "a", "a and b", "a, b and c".
+func JoinAnd(items []string) string {
 	if len(items) < 2 {
 		return strings.Join(items, "")
 	}

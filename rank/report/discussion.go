@@ -132,7 +132,7 @@ func (d *drafter) openQuestions(c rank.ComparisonResult) string {
 				ps = append(ps, fmtP(h.Fit.P))
 			}
 			s := fmt.Sprintf("Alternative interpretations cannot be excluded on the present data: %s %s the observed shifts comparably well (posterior-predictive p = %s)",
-				joinAnd(names), verb(len(good), "reproduces", "reproduce"), joinAnd(ps))
+				rank.JoinAnd(names), verb(len(good), "reproduces", "reproduce"), rank.JoinAnd(ps))
 			set := append([]rank.Hypothesis{hs[0]}, good...)
 			worst, ratio := spread(c, set)
 			all := "all of them predict"
@@ -248,7 +248,7 @@ func (d *drafter) remaining(cs []rank.ComparisonResult) string {
 		}
 		parts = append(parts, s)
 	}
-	return "In the remaining comparisons, the leading interpretations were " + joinAnd(parts) + "; their tables above give the alternatives and the measurements that would separate them."
+	return "In the remaining comparisons, the leading interpretations were " + rank.JoinAnd(parts) + "; their tables above give the alternatives and the measurements that would separate them."
 }
 
 // mechanism explains how the hypothesis's candidates would produce the
@@ -372,21 +372,21 @@ func seriesPattern(u summaryUnit) patternText {
 		if logr[n] {
 			unit = ""
 		}
-		part := obsName(n) + " (" + joinAnd(vals[n]) + unit
+		part := obsName(n) + " (" + rank.JoinAnd(vals[n]) + unit
 		if !everywhere && len(at[n]) == len(vals[n]) {
-			part += " at " + joinAnd(at[n]) + " " + map[bool]string{true: "year", false: "years"}[len(at[n]) == 1 && at[n][0] == "one"]
+			part += " at " + rank.JoinAnd(at[n]) + " " + map[bool]string{true: "year", false: "years"}[len(at[n]) == 1 && at[n][0] == "one"]
 		}
 		parts = append(parts, part+")")
 	}
 	when := ""
 	if tw := treatmentWords(u.comparisons[0].Treatment); tw != "" && len(whens) == len(u.comparisons) {
 		if everywhere {
-			when = " " + joinAnd(whens) + " years after the " + tw
+			when = " " + rank.JoinAnd(whens) + " years after the " + tw
 		} else {
 			when = " after the " + tw
 		}
 	}
-	return patternText{text: "the shifts of " + joinAnd(parts) + when, plural: true}
+	return patternText{text: "the shifts of " + rank.JoinAnd(parts) + when, plural: true}
 }
 
 // patternText is a comparison's observed pattern as a noun phrase, and
@@ -435,25 +435,25 @@ func (d *drafter) pattern(c rank.ComparisonResult) patternText {
 	}
 	var parts []string
 	if len(up) > 0 {
-		parts = append(parts, "the enrichment of "+joinAnd(up))
+		parts = append(parts, "the enrichment of "+rank.JoinAnd(up))
 	}
 	if len(down) > 0 {
-		parts = append(parts, "the depletion of "+joinAnd(down))
+		parts = append(parts, "the depletion of "+rank.JoinAnd(down))
 	}
 	if len(bigger) > 0 {
-		parts = append(parts, "the increase in "+joinAnd(bigger))
+		parts = append(parts, "the increase in "+rank.JoinAnd(bigger))
 	}
 	if len(smaller) > 0 {
-		parts = append(parts, "the decrease in "+joinAnd(smaller))
+		parts = append(parts, "the decrease in "+rank.JoinAnd(smaller))
 	}
 	when := " " + treatmentWhen(c)
 	if len(parts) == 0 {
 		if len(unclear) == 1 {
 			return patternText{text: "the difference in " + unclear[0] + when}
 		}
-		return patternText{text: "the differences in " + joinAnd(unclear) + when, plural: true}
+		return patternText{text: "the differences in " + rank.JoinAnd(unclear) + when, plural: true}
 	}
-	text := joinAnd(parts) + when
+	text := rank.JoinAnd(parts) + when
 	if len(unclear) > 0 {
 		text += ", with no clear change in " + joinOr(unclear) + ","
 	}

@@ -222,7 +222,7 @@ func (u summaryUnit) paragraph(kb *knowledge.Base, g *glosses, level detail) str
 		for _, c := range u.comparisons {
 			names = append(names, quoteName(c.Name))
 		}
-		parts = append(parts, fmt.Sprintf("The %s comparisons of the series %s (%s) were explained jointly, with one response for all of them.", numberWord(len(u.comparisons)), quoteName(u.series), joinAnd(names)))
+		parts = append(parts, fmt.Sprintf("The %s comparisons of the series %s (%s) were explained jointly, with one response for all of them.", numberWord(len(u.comparisons)), quoteName(u.series), rank.JoinAnd(names)))
 	}
 	for i, c := range u.comparisons {
 		if level == leastDetail && i > 0 {
@@ -280,7 +280,7 @@ func leadSentences(c rank.ComparisonResult, n namer, g *glosses, level detail) s
 	case 1:
 		fmt.Fprintf(&b, " %s remains possible.", capitalize(alts[0]))
 	default:
-		fmt.Fprintf(&b, " %s remain possible.", capitalize(joinAnd(alts)))
+		fmt.Fprintf(&b, " %s remain possible.", capitalize(rank.JoinAnd(alts)))
 	}
 	return b.String()
 }

@@ -180,7 +180,7 @@ func trajectoriesFigure(r *rank.Result, ci int) (*figure, error) {
 	if len(obsYears) == 1 && obsYears[0] == 1 {
 		unit = "year"
 	}
-	obsLabel := "observed shift ± 1 SE at " + joinAnd(fmtYears(obsYears)) + " " + unit
+	obsLabel := "observed shift ± 1 SE at " + rank.JoinAnd(fmtYears(obsYears)) + " " + unit
 	if logTime {
 		obsLabel = "observed long-standing contrast ± 1 SE (shown at the right)"
 	}

@@ -45,5 +45,5 @@ func seriesHeading(sr *rank.SeriesResult) string {
 	if sr.Kind == "dose" {
 		kind = "dose levels of one addition, the response scaled with the rate added"
 	}
-	return "series " + quoteName(sr.Name) + " (" + kind + "): " + joinAnd(sr.Comparisons) + ", explained jointly"
+	return "series " + quoteName(sr.Name) + " (" + kind + "): " + rank.JoinAnd(sr.Comparisons) + ", explained jointly"
 }

@@ -241,7 +241,7 @@ func noiseClause(obs []study.Observed) string {
 		}
 		names[len(names)-1] += " δ15N"
 	}
-	return joinAnd(names) + " did not differ beyond noise"
+	return rank.JoinAnd(names) + " did not differ beyond noise"
 }
 
 // patternSentence is the observed pattern of a comparison in one
@@ -284,9 +284,9 @@ func patternSentence(c rank.ComparisonResult, treatment bool) string {
 	case len(clauses) == 0:
 		return lead + ", " + noiseClause(noise) + "."
 	case len(noise) == 0:
-		return lead + ", " + joinAnd(clauses) + "."
+		return lead + ", " + rank.JoinAnd(clauses) + "."
 	}
-	return lead + ", " + joinAnd(clauses) + ", while " + noiseClause(noise) + "."
+	return lead + ", " + rank.JoinAnd(clauses) + ", while " + noiseClause(noise) + "."
 }
 
 // treatmentWhen says when a comparison was sampled in terms of its known
@@ -350,7 +350,7 @@ func treatmentWords(t rank.Treatment) string {
 			parts = append(parts, tag)
 		}
 	}
-	return joinAnd(parts)
+	return rank.JoinAnd(parts)
 }
 
 // orderedObserved puts clear shifts first, largest relative to their SE,
@@ -395,21 +395,10 @@ func plain(s string) string {
 	}, s)
 }
 
-// joinAnd joins "a", "b" and "c" as "a, b and c".
-func joinAnd(s []string) string {
-	switch len(s) {
-	case 0:
-		return ""
-	case 1:
-		return s[0]
-	}
-	return strings.Join(s[:len(s)-1], ", ") + " and " + s[len(s)-1]
-}
-
-// joinOr is joinAnd with "or".
+// joinOr is rank.JoinAnd with "or".
 func joinOr(s []string) string {
 	if len(s) < 2 {
-		return joinAnd(s)
+		return rank.JoinAnd(s)
 	}
 	return strings.Join(s[:len(s)-1], ", ") + " or " + s[len(s)-1]
 }
