@@ -924,15 +924,12 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 			shiftsOnly = append(shiftsOnly, fmt.Sprintf("%q", p.cmp.Name))
 		}
 	}
-	shiftsNote := func(names []string) string {
-		return fmt.Sprintf("the shifts of %s came from a paper without group levels: the model's baseline could not be compared with a control, so the nuisance draws are unweighted", JoinAnd(names))
-	}
 	all := slices.Clone(warnings)
 	for pi := range e.parts {
 		all = append(all, own[pi]...)
 	}
 	if len(shiftsOnly) > 0 {
-		all = append(all, shiftsNote(shiftsOnly))
+		all = append(all, fmt.Sprintf("the shifts of %s came from a paper without group levels: the model's baseline could not be compared with a control, so the nuisance draws are unweighted", JoinAnd(shiftsOnly)))
 	}
 
 	// One result per member comparison: the joint ranking with the member's
@@ -962,10 +959,7 @@ func (e *engine) report(ctx context.Context, sc *scoring, u unit, prog *progress
 		cr.Paths = e.paths(&cr, sorted, leading, pi)
 		cr.Timeline = e.timeline(pi)
 		if u.series == "" {
-			cr.Warnings = append(slices.Clone(warnings), own[pi]...)
-			if pt.cmp.ShiftsOnly {
-				cr.Warnings = append(cr.Warnings, shiftsNote([]string{fmt.Sprintf("%q", pt.cmp.Name)}))
-			}
+			cr.Warnings = slices.Clone(all) // one part: all is its own
 		} else {
 			cr.Warnings = slices.Clone(own[pi])
 		}
