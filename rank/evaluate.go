@@ -384,7 +384,6 @@ func (s *scored) likelihood(e *engine) {
 		}
 	}
 	s.q = logq // reused in place
-	s.mom = nil
 	if math.IsInf(mx, -1) {
 		s.logZ = mx
 		clear(s.q)

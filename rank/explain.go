@@ -626,7 +626,7 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 			compiled = append(compiled, []*knob{kp, durationKnob(c, true)})
 		}
 	}
-	none := e.evaluate(newWorker(site), rules.None, nil, nil)
+	none := e.evaluateOrReuse(newWorker(site), rules.None, nil, nil)
 	scores := make([]*scored, len(singles))
 	parallel(len(singles), opt.Workers, site, func(i int, w *worker) {
 		if ctx.Err() != nil {
@@ -738,9 +738,9 @@ func (e *engine) score(ctx context.Context, prog *progress) (*scoring, error) {
 	// leading posteriors keep these draws in later rounds.
 	e.settled = map[string]bool{}
 	e.prev = map[string]*scored{}
-	for i, h := range hyps[1:] {
-		e.prev[h.ID] = entries[i+1].s
-		e.settled[h.ID] = h.Posterior < settledPosterior && h.Posterior*math.Sqrt(entries[i+1].s.relVar) < mcseTarget/4
+	for i, h := range hyps {
+		e.prev[h.ID] = entries[i].s
+		e.settled[h.ID] = i > 0 && h.Posterior < settledPosterior && h.Posterior*math.Sqrt(entries[i].s.relVar) < mcseTarget/4
 	}
 	// Candidates indistinguishable from none are counted with it.
 	var quiet []string
