@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"sync"
 
 	"nlens/forward"
 	"nlens/knowledge"
@@ -86,7 +87,11 @@ type engine struct {
 	ctx   rules.Context
 	draws []draw
 	logw  []float64 // ln of the normalised draw weights
-	needO bool
+	// logwBy keeps logwFor's renormalised prefixes of logw by length
+	// (hypotheses are scored in parallel, hence the lock).
+	logwMu sync.Mutex
+	logwBy map[int][]float64
+	needO  bool
 	// treated is set when a part's treatment acts on the model.
 	treated bool
 	// stream seeds this unit's random streams.
@@ -475,6 +480,7 @@ func (e *engine) grow(w *worker, n int) error {
 	}
 	e.siteCertain = e.siteIsCertain()
 	e.logw = make([]float64, n)
+	e.logwBy = nil
 	for d, v := range drawWeights(e.rawLogW) {
 		e.logw[d] = math.Log(v)
 	}

@@ -114,16 +114,25 @@ func (e *engine) evaluate(w *worker, id string, knobs []*knob, none *scored) *sc
 }
 
 // logwFor returns the log weights of the first nd draws, renormalised
-// among themselves.
+// among themselves (kept per nd until the weights change; read only).
 func (e *engine) logwFor(nd int) []float64 {
 	if nd >= len(e.draws) {
 		return e.logw
+	}
+	e.logwMu.Lock()
+	defer e.logwMu.Unlock()
+	if out, ok := e.logwBy[nd]; ok {
+		return out
 	}
 	out := make([]float64, nd)
 	lz := logSumExp(e.logw[:nd])
 	for d := range nd {
 		out[d] = e.logw[d] - lz
 	}
+	if e.logwBy == nil {
+		e.logwBy = map[int][]float64{}
+	}
+	e.logwBy[nd] = out
 	return out
 }
 
